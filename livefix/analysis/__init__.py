@@ -1,0 +1,41 @@
+"""Analysis: running statistics over epochs, published as one JSON-able snapshot dict.
+
+Pure function of the time-stamped stream: every time used comes from the items (Chunk/Epoch/
+Event mono, wall, utc), never from the host clock, so replay at any speed gives identical results.
+Streaming and bounded: fixed windows, streaming estimators, decimated history.
+
+Interface (livefix.analysis.engine.Analyzer):
+    a = Analyzer(AnalysisConfig(...))
+    a.on_chunk(mono, wall, nbytes)   # every Chunk (for rate, gaps, stalls)
+    a.on_epoch(epoch)                # every completed Epoch from the state model
+    a.on_event(event)                # state-model events (link, time_jump, marker, ...)
+    a.snapshot(counters) -> dict     # counters: livefix.pipeline.StreamCounters
+    a.events -> list[Event]          # bounded, newest last, all kinds (state + analysis)
+
+Snapshot keys (all documented in README "Report JSON"); times ISO 8601 UTC, distances metres:
+  stream:   lines, bad_checksum, malformed, unknown, proprietary, junk_bytes, overlong, by_type,
+            epochs, rate_hz, epoch_jitter_ms, gaps, stalls [{start, duration_s}], time_jumps,
+            rollbacks, sentences_per_s {msg_id: rate}
+  fix:      ttff_s, ttff_dgnss_s, ttff_rtk_fixed_s, availability {fix name: share}, outages
+            [{start, duration_s}], longest_outage_s, fix_losses, jumps [{time, distance_m}],
+            reacquisition_s [..], current
+  position: mean {lat, lon, h}, ref {lat, lon, h, source: "user"|"session_mean"}, offset_m {e,n,u},
+            cep50_m, cep95_m, r95_m, drms2_m, v95_m, ellipse {major_m, minor_m, orient_deg},
+            window {cep50_m, cep95_m, ...}, by_fix {fix name: {n, cep50_m, cep95_m, ...}},
+            drift_mm_per_h {e, n, u}, drift_se_mm_per_h {e, n, u}, drift_window_mm_per_h {e,n,u},
+            convergence_s, convergence_v_s, allan {tau_s: [...], e: [...], n: [...], u: [...]},
+            honesty {lat_ratio, lon_ratio, h_ratio, ure_m}, samples {e: [...], n: [...], u: [...]}
+  dop:      reported {gdop, pdop, hdop, vdop}, computed {gdop, pdop, hdop, vdop, tdop},
+            current {reported: {...}, computed: {...}}, disagreements
+  signal:   cn0_mean_dbhz, top4_mean_dbhz, by_system {G: mean,...}, by_elevation [{from, to, mean}],
+            curve {a, b} (expected C/N0 vs elevation), weak [{sat, elev, azim, cn0, expected}],
+            interference [{start, duration_s, drop_db}]
+  sky:      obstructed [{az_from, az_to, below_el}], grid {az_step, el_step, tracked[[..]],
+            untracked[[..]], cn0[[..]]}, clear_above_deg, visible_share
+  trend:    t [...], h_err_m [...], cn0_mean [...], sats_used [...]   (decimated, <= 600 points)
+  events:   [{time, kind, text, ...}]
+"""
+
+from livefix.analysis.config import AnalysisConfig
+
+__all__ = ["AnalysisConfig"]

@@ -1,0 +1,57 @@
+"""Command line. Sub-commands are looked up in a table and imported only when used, so that
+`livefix --help` stays fast (no textual, numpy or matplotlib import)."""
+
+from __future__ import annotations
+
+import argparse
+import importlib
+import sys
+
+# name -> (module with add_arguments(parser) and run(args) -> int, one-line help)
+COMMANDS: dict[str, tuple[str, str]] = {
+    "watch": ("livefix.ui.command", "full-screen live monitor of a source (or replay of a recording)"),
+    "check": ("livefix.check.command", "headless pass/fail run of one or more sources against a profile"),
+    "report": ("livefix.report.command", "analyse a recording or NMEA log and write JSON/Markdown/HTML"),
+    "record": ("livefix.record.command", "record a source losslessly to a file"),
+    "replay": ("livefix.record.replay_command", "replay a recording through the pipeline"),
+    "simulate": ("livefix.sim.command", "run the built-in simulated receiver"),
+}
+
+
+def build_parser(only: str | None = None) -> argparse.ArgumentParser:
+    from livefix import __version__
+
+    p = argparse.ArgumentParser(prog="livefix", description="Live NMEA 0183 monitor, recorder and "
+                                "pass/fail checker for GNSS receiver installations and QA benches.")
+    p.add_argument("--version", action="version", version=f"livefix {__version__}")
+    sub = p.add_subparsers(dest="command", metavar="COMMAND")
+    for name, (module, help_text) in COMMANDS.items():
+        sp = sub.add_parser(name, help=help_text, description=help_text)
+        if name == only:
+            importlib.import_module(module).add_arguments(sp)
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    argv = list(sys.argv[1:] if argv is None else argv)
+    chosen = next((a for a in argv if not a.startswith("-")), None)
+    only = chosen if chosen in COMMANDS else None
+    parser = build_parser(only)
+    args = parser.parse_args(argv)
+    if not args.command:
+        parser.print_help()
+        return 2
+    module = importlib.import_module(COMMANDS[args.command][0])
+    try:
+        return int(module.run(args) or 0)
+    except KeyboardInterrupt:
+        return 130
+    except BrokenPipeError:
+        return 0
+    except (OSError, ValueError) as exc:  # one clear line, never a traceback, for expected trouble
+        print(f"livefix {args.command}: {exc}", file=sys.stderr)
+        return 2
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

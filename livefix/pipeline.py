@@ -1,0 +1,170 @@
+"""The one pipeline every mode uses: items -> framing -> decoding -> state -> analysis.
+
+Live, replay at any speed, headless checks and reports all push the same items through a
+Pipeline, which is why their results agree. It is single-threaded and never blocks; the session
+runs it on the analysis thread.
+
+Stage interfaces it relies on:
+  livefix.framing.Framer:   feed(data: bytes) -> list[bytes]  (complete sentences, no terminator)
+                            finish() -> list[bytes]; counters: FrameCounters(lines, bytes, junk_bytes,
+                            overlong)
+  livefix.decode.Decoder:   decode(line: bytes) -> Decoded | Rejected; counters: DecodeCounters
+  livefix.state.StateModel: on_link(LinkEvent), on_marker(Marker), on_chunk(mono, wall),
+                            on_sentence(Decoded, mono, wall) -> list[Epoch] (completed epochs),
+                            on_rejected(Rejected, mono, wall), finish() -> list[Epoch],
+                            drain_events() -> list[Event], sky() -> tuple[SatObs, ...],
+                            link -> (state, since_mono, detail), last_epoch -> Epoch | None
+  livefix.analysis.engine.Analyzer (see livefix.analysis)
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+from typing import Any
+
+from livefix.analysis.config import AnalysisConfig
+from livefix.sources.base import Chunk, Item, LinkEvent, Marker
+from livefix.state.epoch import Epoch, SatObs
+
+
+@dataclass(frozen=True, slots=True)
+class StreamCounters:
+    """Framing + decoding counts, copied at snapshot time."""
+
+    bytes: int = 0
+    lines: int = 0
+    junk_bytes: int = 0
+    overlong: int = 0
+    decoded: int = 0
+    bad_checksum: int = 0
+    malformed: int = 0
+    unknown: int = 0
+    proprietary: int = 0
+    by_type: dict[str, int] = field(default_factory=dict)
+    by_talker_type: dict[str, int] = field(default_factory=dict)
+    rejected_by_type: dict[str, int] = field(default_factory=dict)
+    recent_rejects: tuple[str, ...] = ()  # last few refused lines, as repr text, for display
+
+
+@dataclass(frozen=True, slots=True)
+class Snapshot:
+    """What readers (UI, reports, metrics) see. Immutable; take it and work without locks."""
+
+    seq: int
+    mono: float  # stream time of the last item
+    wall: float
+    source: str
+    link: str
+    link_since: float
+    link_detail: str
+    epoch: Epoch | None
+    sky: tuple[SatObs, ...]
+    counters: StreamCounters
+    analysis: dict[str, Any]
+    recording: str | None = None
+    recording_error: str | None = None
+    finished: bool = False
+
+
+class Pipeline:
+    def __init__(self, config: AnalysisConfig | None = None, source: str = "") -> None:
+        from livefix.analysis.engine import Analyzer
+        from livefix.decode.decoder import Decoder
+        from livefix.framing import Framer
+        from livefix.state.model import StateModel
+
+        self.source = source
+        self.framer = Framer()
+        self.decoder = Decoder()
+        self.state = StateModel()
+        self.analyzer = Analyzer(config or AnalysisConfig())
+        self._rejects: list[str] = []
+        self._seq = 0
+        self._mono = 0.0
+        self._wall = 0.0
+        self.finished = False
+
+    # -- feeding -------------------------------------------------------------------------
+    def feed(self, item: Item) -> None:
+        if type(item) is Chunk:
+            self._chunk(item)
+        elif type(item) is LinkEvent:
+            self._mono, self._wall = item.mono, item.wall
+            self.state.on_link(item)
+        elif type(item) is Marker:
+            self._mono, self._wall = item.mono, item.wall
+            self.state.on_marker(item)
+        self._pump_events()
+
+    def _chunk(self, c: Chunk) -> None:
+        mono, wall = c.mono, c.wall
+        self._mono, self._wall = mono, wall
+        self.analyzer.on_chunk(mono, wall, len(c.data))
+        self.state.on_chunk(mono, wall)
+        lines = self.framer.feed(c.data)
+        if lines:
+            self._lines(lines, mono, wall)
+
+    def _lines(self, lines: list[bytes], mono: float, wall: float) -> None:
+        decode = self.decoder.decode
+        on_sentence = self.state.on_sentence
+        on_epoch = self.analyzer.on_epoch
+        for line in lines:
+            msg = decode(line)
+            if type(msg) is not Rejected_:
+                for ep in on_sentence(msg, mono, wall):
+                    self._pump_events()
+                    on_epoch(ep)
+            else:
+                self.state.on_rejected(msg, mono, wall)
+                if len(self._rejects) >= 8:
+                    del self._rejects[0]
+                self._rejects.append(f"{msg.reason}: {msg.raw[:90]!r}")
+
+    def _pump_events(self) -> None:
+        for ev in self.state.drain_events():
+            self.analyzer.on_event(ev)
+
+    def finish(self) -> None:
+        """End of stream: flush the partial line and the last epoch."""
+        if self.finished:
+            return
+        lines = self.framer.finish()
+        if lines:
+            self._lines(lines, self._mono, self._wall)
+        for ep in self.state.finish():
+            self._pump_events()
+            self.analyzer.on_epoch(ep)
+        self._pump_events()
+        self.finished = True
+
+    # -- reading -------------------------------------------------------------------------
+    def counters(self) -> StreamCounters:
+        f, d = self.framer.counters, self.decoder.counters
+        return StreamCounters(
+            bytes=f.bytes, lines=f.lines, junk_bytes=f.junk_bytes, overlong=f.overlong,
+            decoded=d.decoded, bad_checksum=d.bad_checksum, malformed=d.malformed, unknown=d.unknown,
+            proprietary=d.proprietary, by_type=dict(d.by_type), by_talker_type=dict(d.by_talker_type),
+            rejected_by_type=dict(d.rejected_by_type), recent_rejects=tuple(self._rejects))
+
+    def snapshot(self, recording: str | None = None, recording_error: str | None = None) -> Snapshot:
+        self._seq += 1
+        counters = self.counters()
+        state, since, detail = self.state.link
+        return Snapshot(seq=self._seq, mono=self._mono, wall=self._wall, source=self.source, link=state,
+                        link_since=since, link_detail=detail, epoch=self.state.last_epoch,
+                        sky=self.state.sky(), counters=counters,
+                        analysis=self.analyzer.snapshot(counters), recording=recording,
+                        recording_error=recording_error, finished=self.finished)
+
+
+def run_items(items, config: AnalysisConfig | None = None, source: str = "") -> Pipeline:  # noqa: ANN001
+    """Push a finite iterable of items through a fresh pipeline and finish it (reports, tests)."""
+    p = Pipeline(config, source)
+    for it in items:
+        p.feed(it)
+    p.finish()
+    return p
+
+
+from livefix.decode import Rejected as Rejected_  # noqa: E402  (after class defs: cheap, no cycle)
