@@ -64,6 +64,8 @@ class Snapshot:
     recording: str | None = None
     recording_error: str | None = None
     finished: bool = False
+    dropped_chunks: int = 0  # chunks the analysis shed while behind (always still recorded)
+    error: str | None = None  # first failure of a session thread, one line
 
 
 class Pipeline:
@@ -117,6 +119,7 @@ class Pipeline:
                     on_epoch(ep)
             else:
                 self.state.on_rejected(msg, mono, wall)
+                self.analyzer.on_rejected(msg.reason, mono, wall)  # checksum-burst timing
                 if len(self._rejects) >= 8:
                     del self._rejects[0]
                 self._rejects.append(f"{msg.reason}: {msg.raw[:90]!r}")
@@ -137,6 +140,22 @@ class Pipeline:
             self.analyzer.on_epoch(ep)
         self._pump_events()
         self.finished = True
+
+    # -- controls (used by the session, between items, on the analysis thread) ----------------
+    def reset_analysis(self) -> None:
+        """Fresh statistics; framing, decoding and receiver state are kept."""
+        self.analyzer.reset()
+
+    def set_reference(self, lat: float, lon: float, h: float) -> None:
+        self.analyzer.set_reference(lat, lon, h)
+
+    def set_reference_to_mean(self) -> tuple[float, float, float] | None:
+        return self.analyzer.reference_to_mean()
+
+    def note(self, kind: str, text: str, data: dict[str, Any] | None = None) -> None:
+        """An event from outside the stream (recording started, ...), at the current stream time."""
+        self.state.add_event(kind, text, self._mono, self._wall, data)
+        self._pump_events()
 
     # -- reading -------------------------------------------------------------------------
     def counters(self) -> StreamCounters:

@@ -10,4 +10,13 @@ Reader (livefix.record.reader):
     r = RecordingReader(path)  # also reads plain NMEA logs (items synthesised, paced by UTC fields)
     r.header -> dict;  for item in r.items(): ...;  r.damage -> str | None after iteration
 is_recording(path) -> bool
+
+Details (livefix.record.writer / reader; the byte layout is in livefix/record/FORMAT.md):
+    Recorder(..., exclusive=True)  # opening raises OSError (an existing file is never overwritten);
+                                   # exclusive=False allows devices/FIFOs
+    rec.marker(note) -> Marker;  rec.path (current part), rec.paths, rec.records, rec.flush()
+    r.records, r.paths (parts read so far), r.clean (file ended with its end record: closed cleanly)
+Replay source (livefix.sources.file.FileSource): speed (settable), pause(), resume(), seek(offset_s),
+    seek_to(position_s), position_s, generation (+1 and LinkEvent(connecting, "seek") on a backward
+    seek: rebuild the pipeline), damage after ENDED.
 """

@@ -1,0 +1,125 @@
+"""The analysis engine: one Analyzer fed by the pipeline, publishing one JSON-able snapshot dict.
+
+Why one object: live, replay, check and report all call the same four methods with the same items,
+so their numbers agree. Every time comes from the items (never the host clock), per-epoch work is
+O(satellites), memory is bounded, and snapshot() of the same stream is the same dict (NaN -> None,
+sorted keys where order could vary), so replay at any speed yields identical JSON.
+See livefix.analysis for every snapshot key.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from typing import Any
+
+from livefix.analysis.config import AnalysisConfig
+from livefix.analysis.dop import DopStats
+from livefix.analysis.events import EventLog, jsonable
+from livefix.analysis.fixes import FixStats
+from livefix.analysis.integrity import StreamIntegrity
+from livefix.analysis.position import PositionStats
+from livefix.analysis.signal import SignalStats
+from livefix.analysis.sky import SkyMap
+from livefix.analysis.trend import Trend
+from livefix.state.epoch import Epoch, Event
+from livefix.timefmt import iso
+
+MAX_EVENTS = 500
+
+
+class Analyzer:
+    def __init__(self, config: AnalysisConfig | None = None, max_events: int = MAX_EVENTS) -> None:
+        self.config = config or AnalysisConfig()
+        self._log = EventLog(max_events)
+        cfg, emit = self.config, self._log.add
+        self.integrity = StreamIntegrity(cfg, emit)
+        self.fix = FixStats(cfg, emit)
+        self.position = PositionStats(cfg, emit)
+        self.dop = DopStats()
+        self.signal = SignalStats(cfg, emit)
+        self.sky = SkyMap(cfg)
+        self.trend = Trend()
+        self._epoch_stages: tuple[Callable[[Epoch], None], ...] = (
+            self.integrity.on_epoch, self.fix.on_epoch, self.position.on_epoch, self.dop.on_epoch,
+            self.signal.on_epoch, self._sky)
+        self._event_stages: tuple[Callable[[Event], None], ...] = (
+            self.integrity.on_event, self.fix.on_event, self.position.on_event)
+        self.internal_errors = 0  # a bug in one statistic must not end a multi-day soak
+        self.last_error: str | None = None
+
+    # -- items ------------------------------------------------------------------------------
+    def on_chunk(self, mono: float, wall: float, nbytes: int) -> None:
+        self.integrity.on_chunk(mono, wall, nbytes)
+
+    def on_rejected(self, reason: str, mono: float, wall: float) -> None:
+        """A refused line (Rejected.reason), for checksum-burst timing."""
+        self.integrity.on_rejected(reason, mono, wall)
+
+    def on_event(self, ev: Event) -> None:
+        self._log.add(ev)
+        for stage in self._event_stages:
+            self._guard(stage, ev)
+
+    def on_epoch(self, ep: Epoch) -> None:
+        for stage in self._epoch_stages:
+            self._guard(stage, ep)
+        n_used = self.dop.current_n or ep.num_sv
+        start = iso(ep.utc if ep.utc is not None else ep.wall) if self.trend.t0 is None else None
+        self._guard(lambda e: self.trend.add(e.mono, start, h_err_m=self.position.h_error(),
+                                             cn0_mean=self.signal.cur_mean, sats_used=n_used), ep)
+
+    def _sky(self, ep: Epoch) -> None:
+        self.sky.on_epoch(ep, suspend=self.signal.active is not None)
+
+    def _guard(self, fn: Callable[[Any], None], arg: Any) -> None:
+        try:
+            fn(arg)
+        except Exception as exc:  # noqa: BLE001 - counted and shown in the snapshot
+            self.internal_errors += 1
+            self.last_error = f"{getattr(fn, '__qualname__', 'stage')}: {type(exc).__name__}: {exc}"
+
+    # -- reference --------------------------------------------------------------------------
+    def set_reference(self, lat: float, lon: float, h: float) -> None:
+        self.position.set_reference(lat, lon, h)
+
+    def reference_to_mean(self) -> tuple[float, float, float] | None:
+        """Use the session mean position as the reference (returns it; None before any fix)."""
+        mean = self.position.snapshot().get("mean")
+        if not mean or mean.get("lat") is None:
+            return None
+        ref = (mean["lat"], mean["lon"], mean["h"])
+        self.position.set_reference(*ref, source="session_mean")
+        return ref
+
+    # -- reading ----------------------------------------------------------------------------
+    @property
+    def events(self) -> list[Event]:
+        """Bounded (newest MAX_EVENTS), newest last; older ones are counted in events_dropped."""
+        return self._log.list()
+
+    def snapshot(self, counters: Any) -> dict[str, Any]:
+        out = {
+            "stream": self.integrity.snapshot(counters),
+            "fix": self.fix.snapshot(),
+            "position": self.position.snapshot(),
+            "dop": self.dop.snapshot(),
+            "signal": self.signal.snapshot(),
+            "sky": self.sky.snapshot(),
+            "trend": self.trend.snapshot(),
+            "events": self._log.to_json(),
+            "events_dropped": self._log.dropped,
+            "internal_errors": self.internal_errors,
+            "last_error": self.last_error,
+        }
+        return jsonable(out)
+
+    def reset(self) -> None:
+        """Start the statistics afresh (the user reference, if any, is kept)."""
+        ref = self.position.ref if self.position.ref_source == "user" else None
+        for part in (self.integrity, self.fix, self.position, self.dop, self.signal, self.sky, self.trend,
+                     self._log):
+            part.reset()
+        self.internal_errors = 0
+        self.last_error = None
+        if ref is not None:
+            self.position.set_reference(*ref)

@@ -1,0 +1,179 @@
+"""Stream integrity: rates, epoch timing, gaps, stalls, time jumps and bursts of bad checksums.
+
+Why: a receiver that drops epochs, stalls on a long cable or garbles bytes on a noisy line fails a
+bench long before its positions look wrong. All times come from the stream items.
+- Epoch interval: receiver UTC difference when both epochs carry a time (exact nominal rate),
+  else host arrival difference. rate_hz = 1 / median of the last 256 intervals.
+- Jitter: standard deviation of host arrival intervals over the same window, gaps excluded, in ms.
+- Gap: an epoch interval longer than 3 × nominal (nominal known after 5 intervals).
+- Stall: no chunk for longer than config.stall_s; a link "stalled" event with no chunk after it is
+  shown as an ongoing stall.
+- Checksum burst: >= 5 bad checksums within 10 s (common practice) -> one "checksum_burst" event
+  per burst (re-armed after 10 s without bad checksums).
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+from collections.abc import Callable
+from typing import Any
+
+from livefix.analysis.config import AnalysisConfig
+from livefix.state.epoch import Epoch, Event
+from livefix.timefmt import iso
+
+WINDOW = 256
+GAP_FACTOR = 3.0
+BURST_N = 5
+BURST_S = 10.0
+MAX_LIST = 100
+PASS_KEYS = ("lines", "bad_checksum", "malformed", "unknown", "proprietary", "junk_bytes", "overlong")
+
+
+def _median(xs: list[float]) -> float:
+    s = sorted(xs)
+    n = len(s)
+    return s[n // 2] if n % 2 else 0.5 * (s[n // 2 - 1] + s[n // 2])
+
+
+class StreamIntegrity:
+    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None]) -> None:
+        self.config = config
+        self.emit = emit
+        self.reset()
+
+    def reset(self) -> None:
+        self.first_mono: float | None = None
+        self.last_mono: float | None = None
+        self.last_wall = 0.0
+        self.bytes = 0
+        self.stalls: list[dict[str, Any]] = []
+        self.stall_count = 0
+        self.pending_stall = False  # a link "stalled" event and no chunk since
+        self.latest = 0.0  # stream time of the latest item seen here
+        self.epochs = 0
+        self.prev: Epoch | None = None
+        self.iv_nominal: deque[float] = deque(maxlen=WINDOW)  # utc (or host) intervals
+        self.iv_host: deque[float] = deque(maxlen=WINDOW)
+        self.gaps: list[dict[str, Any]] = []
+        self.gap_count = 0
+        self.time_jumps = 0
+        self.rollbacks = 0
+        self.bad_times: deque[float] = deque()
+        self.bursts = 0
+        self.in_burst = False
+        self.last_bad = -math.inf
+
+    # -- items ------------------------------------------------------------------------------
+    def on_chunk(self, mono: float, wall: float, nbytes: int) -> None:
+        if self.first_mono is None:
+            self.first_mono = mono
+        elif self.last_mono is not None:
+            gap = mono - self.last_mono
+            if gap > self.config.stall_s:
+                self._stall(self.last_mono, self.last_wall, gap, mono, wall)
+        self.pending_stall = False
+        self.last_mono, self.last_wall = mono, wall
+        self.latest = max(self.latest, mono)
+        self.bytes += nbytes
+
+    def _stall(self, m0: float, w0: float, dur: float, mono: float, wall: float) -> None:
+        self.stall_count += 1
+        self.stalls.append({"start": iso(w0), "duration_s": round(dur, 3)})
+        if len(self.stalls) > MAX_LIST:
+            del self.stalls[0]
+        self.emit(Event(mono, wall, "stall", f"no data for {dur:.1f} s", None,
+                        {"start": iso(w0), "duration_s": round(dur, 3)}))
+
+    def on_event(self, ev: Event) -> None:
+        self.latest = max(self.latest, ev.mono)
+        if ev.kind == "time_jump":
+            self.time_jumps += 1
+        elif ev.kind == "time_rollback":
+            self.rollbacks += 1
+        elif ev.kind == "link" and ev.data.get("state") == "stalled" and self.last_mono is not None:
+            self.pending_stall = True
+
+    def on_rejected(self, reason: str, mono: float, wall: float) -> None:
+        if reason != "bad_checksum":
+            return
+        q = self.bad_times
+        if self.in_burst and mono - self.last_bad > BURST_S:
+            self.in_burst = False
+        self.last_bad = mono
+        q.append(mono)
+        while q and mono - q[0] > BURST_S:
+            q.popleft()
+        if len(q) >= BURST_N and not self.in_burst:
+            self.in_burst = True
+            self.bursts += 1
+            self.emit(Event(mono, wall, "checksum_burst",
+                            f"{len(q)} bad checksums within {BURST_S:.0f} s", None, {"count": len(q)}))
+        if len(q) > 4 * BURST_N:
+            q.popleft()
+
+    def on_epoch(self, ep: Epoch) -> None:
+        self.epochs += 1
+        p = self.prev
+        self.prev = ep
+        if p is None:
+            return
+        host = ep.mono - p.mono
+        dt = host
+        if ep.utc is not None and p.utc is not None and 0 < ep.utc - p.utc < 3600:
+            dt = ep.utc - p.utc
+        if dt <= 0:
+            return
+        nominal = self.nominal()
+        if nominal is not None and dt > GAP_FACTOR * nominal:
+            self.gap_count += 1
+            self.gaps.append({"start": iso(p.utc if p.utc is not None else p.wall),
+                              "duration_s": round(dt, 3)})
+            if len(self.gaps) > MAX_LIST:
+                del self.gaps[0]
+        else:
+            self.iv_host.append(host)
+        self.iv_nominal.append(dt)
+
+    # -- reading ----------------------------------------------------------------------------
+    def nominal(self) -> float | None:
+        return _median(list(self.iv_nominal)) if len(self.iv_nominal) >= 5 else None
+
+    def jitter_ms(self) -> float | None:
+        xs = list(self.iv_host)
+        if len(xs) < 5:
+            return None
+        m = sum(xs) / len(xs)
+        return round(1000.0 * math.sqrt(sum((x - m) ** 2 for x in xs) / (len(xs) - 1)), 3)
+
+    def duration_s(self) -> float:
+        if self.first_mono is None or self.last_mono is None:
+            return 0.0
+        return self.last_mono - self.first_mono
+
+    def snapshot(self, counters: Any) -> dict[str, Any]:
+        out: dict[str, Any] = {k: int(getattr(counters, k, 0)) for k in PASS_KEYS}
+        by_type = dict(sorted(getattr(counters, "by_type", {}).items()))
+        out["by_type"] = by_type
+        out["epochs"] = self.epochs
+        nom = self.nominal()
+        out["rate_hz"] = round(1.0 / nom, 4) if nom else None
+        out["epoch_interval_s"] = round(nom, 4) if nom else None
+        out["epoch_jitter_ms"] = self.jitter_ms()
+        out["gaps"] = self.gap_count
+        out["gap_list"] = list(self.gaps)
+        stalls = list(self.stalls)
+        if self.pending_stall and self.last_mono is not None:
+            stalls.append({"start": iso(self.last_wall),
+                           "duration_s": round(max(0.0, self.latest - self.last_mono), 3), "ongoing": True})
+        out["stalls"] = stalls
+        out["stall_count"] = self.stall_count + int(self.pending_stall)
+        out["time_jumps"] = self.time_jumps
+        out["rollbacks"] = self.rollbacks
+        out["checksum_bursts"] = self.bursts
+        dur = self.duration_s()
+        out["duration_s"] = round(dur, 3)
+        out["sentences_per_s"] = {k: round(v / dur, 3) for k, v in by_type.items()} if dur > 0 else {}
+        out["bytes_per_s"] = round(self.bytes / dur, 1) if dur > 0 else None
+        return out

@@ -1,0 +1,242 @@
+"""Signal quality: C/N0 per satellite, constellation and elevation band, the expected C/N0-vs-elevation
+curve of this session, weak satellites, and broadband drops that point to interference.
+
+Why a session curve: antennas, cables and receivers differ by several dB, so "weak" is judged
+against what this installation does at the same elevation, not against a fixed number.
+Session figures (means, bands, curve) sample the latest epoch once per second of stream time, so
+a 10 Hz and a 1 Hz stream weigh the sky alike; "current" is the latest epoch.
+Curve: least squares cn0 = a + b·sin(el) from running sums (bounded, exact).
+Interference (common practice; Calcagno et al., NAVITEC 2010 in shared/REFERENCES.md): a jammer
+lowers C/N0 on every satellite at once regardless of direction, whereas blockage and multipath hit
+particular sectors. Each signal keeps a slow baseline (exponential, 30 s time constant, frozen while
+an event is open); an event opens when ≥ 70 % of the satellites with a baseline dropped by at least
+config.interference_drop_db and the median drop is that large, and closes when the median drop is
+back under half of it. A satellite that lost lock counts as dropped in the share, but the median
+is taken over the ≥ 4 satellites still tracked: losing everything at once (antenna or cable fault,
+receiver restart) is an outage, reported by the fix statistics, not interference.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable
+from typing import Any
+
+from livefix.analysis.config import AnalysisConfig
+from livefix.state.epoch import Epoch, Event, SatObs
+from livefix.timefmt import iso
+
+BASE_TAU_S = 30.0  # baseline time constant
+BASE_MIN_N = 5  # epochs before a baseline counts
+LOST_S = 10.0  # a signal missing from view this recently counts as lost (dropped)
+FORGET_S = 60.0  # baselines of signals gone this long are forgotten (bounded memory)
+SHARE = 0.70
+MIN_MEASURED = 4  # still-tracked satellites needed to call (or end) an event
+LOST_CN0 = 20.0  # assumed C/N0 of a signal that lost lock, dB-Hz (common practice: tracking floor)
+WEAK_DB = 8.0  # this far below the session curve = weak
+CURVE_MIN_N = 100
+MAX_LIST = 100
+MAX_SATS = 128  # per-satellite list in the snapshot (current epoch)
+EVAL_S = 0.95  # session sums and interference use epochs at least this far apart (stream time)
+_SIN = [math.sin(math.radians(e)) for e in range(91)]
+
+
+def _sin(el: int) -> float:
+    return _SIN[min(max(int(el), 0), 90)]
+
+
+def _median(xs: list[float]) -> float:
+    s = sorted(xs)
+    n = len(s)
+    return s[n // 2] if n % 2 else 0.5 * (s[n // 2 - 1] + s[n // 2])
+
+
+class SignalStats:
+    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None]) -> None:
+        self.config = config
+        self.emit = emit
+        self.reset()
+
+    def reset(self) -> None:
+        self.n = 0
+        self.sum = 0.0
+        self.top4_sum = 0.0
+        self.top4_n = 0
+        self.by_sys: dict[str, list[float]] = {}  # letter -> [sum, n]
+        self.bands = [[0.0, 0] for _ in range(9)]
+        self.cs = [0.0] * 5  # n, Σx, Σx², Σy, Σxy  (x = sin el)
+        self.cur: list[SatObs] = []  # tracked signals of the latest epoch
+        self.cur_mean: float | None = None
+        self.cur_top4: float | None = None
+        self.base: dict[tuple, list[float]] = {}  # key -> [ema, n, last_t]
+        self.active: dict[str, Any] | None = None
+        self.events: list[dict[str, Any]] = []
+        self.events_total = 0
+        self._if_t = -math.inf
+        self._last_sats: tuple | None = None
+
+    # -- per epoch --------------------------------------------------------------------------
+    def on_epoch(self, ep: Epoch) -> None:
+        if ep.sats is not self._last_sats:  # the state model reuses the tuple while GSV is unchanged
+            self._last_sats = ep.sats
+            self.cur = [s for s in ep.sats if s.cn0 and s.cn0 > 0]
+            vals = [s.cn0 for s in self.cur]
+            if vals:
+                self.cur_mean = sum(vals) / len(vals)
+                top = sorted(vals, reverse=True)[:4]
+                self.cur_top4 = sum(top) / len(top)
+            else:
+                self.cur_mean = self.cur_top4 = None
+        dt = ep.mono - self._if_t
+        if dt >= EVAL_S or dt < 0:  # one sample per ~second of stream time, whatever the rate
+            self._if_t = ep.mono
+            self._accumulate()
+            self._interference(ep)
+
+    def _accumulate(self) -> None:
+        mask = self.config.elev_mask_deg
+        cs, bands, by_sys, sin = self.cs, self.bands, self.by_sys, _SIN
+        for s in self.cur:
+            c = s.cn0 or 0
+            acc = by_sys.get(s.system)
+            if acc is None:
+                acc = by_sys[s.system] = [0.0, 0]
+            acc[0] += c
+            acc[1] += 1
+            el = s.elev
+            if el is not None and 0 <= el <= 90:
+                b = bands[el // 10 if el < 90 else 8]
+                b[0] += c
+                b[1] += 1
+                if el >= mask:
+                    x = sin[el]
+                    cs[0] += 1
+                    cs[1] += x
+                    cs[2] += x * x
+                    cs[3] += c
+                    cs[4] += x * c
+        if self.cur:
+            self.n += len(self.cur)
+            self.sum += sum(s.cn0 or 0 for s in self.cur)
+            self.top4_sum += self.cur_top4 or 0.0
+            self.top4_n += 1
+
+    def _interference(self, ep: Epoch) -> None:
+        t, thr, base = ep.mono, self.config.interference_drop_db, self.base
+        frozen = self.active is not None
+        drops: list[float] = []  # every satellite with a baseline; lost ones count as dropped
+        measured: list[float] = []  # those still tracked
+        seen = set()
+        for s in ep.sats:
+            k = s.key
+            seen.add(k)
+            b = base.get(k)
+            c = s.cn0 if s.cn0 and s.cn0 > 0 else None
+            if b is not None and b[1] >= BASE_MIN_N:
+                if c is not None:
+                    measured.append(b[0] - c)
+                    drops.append(b[0] - c)
+                elif t - b[2] <= LOST_S:  # lost lock recently (not a satellite long behind a wall)
+                    drops.append(max(thr, b[0] - LOST_CN0))
+            if c is None:
+                continue
+            if b is None:
+                base[k] = [float(c), 1, t]
+            elif not frozen or b[1] < BASE_MIN_N:
+                a = min(1.0, max(0.0, t - b[2]) / BASE_TAU_S) if b[1] >= BASE_MIN_N else 1.0 / (b[1] + 1)
+                b[0] += a * (c - b[0])
+                b[1] += 1
+                b[2] = t
+            else:
+                b[2] = t
+        for k in list(base):
+            if k in seen:
+                continue
+            b = base[k]
+            if t - b[2] > FORGET_S:
+                del base[k]
+            elif t - b[2] <= LOST_S and b[1] >= BASE_MIN_N:
+                drops.append(max(thr, b[0] - LOST_CN0))
+        if len(measured) < MIN_MEASURED:  # nothing (or too little) left to judge by: not decided here
+            return
+        med = _median(measured)
+        share = sum(1 for d in drops if d >= thr) / len(drops)
+        act = self.active
+        if act is None and share >= SHARE and med >= thr:
+            self.active = {"mono": t, "start": iso(ep.utc if ep.utc is not None else ep.wall),
+                           "drop_db": med, "sats": len(drops), "last": t}
+            self.emit(Event(t, ep.wall, "interference", f"broadband C/N0 drop of {med:.1f} dB on "
+                            f"{round(share * len(drops))} of {len(drops)} satellites", ep.utc,
+                            {"phase": "start", "drop_db": round(med, 1)}))
+        elif act is not None:
+            act["last"] = t
+            act["drop_db"] = max(act["drop_db"], med)
+            if med < thr / 2:
+                dur = t - act["mono"]
+                self._record(act, dur, False)
+                self.active = None
+                self.emit(Event(t, ep.wall, "interference", f"C/N0 recovered after {dur:.0f} s "
+                                f"(largest median drop {act['drop_db']:.1f} dB)", ep.utc,
+                                {"phase": "end", "duration_s": round(dur, 1),
+                                 "drop_db": round(act["drop_db"], 1)}))
+
+    def _record(self, act: dict[str, Any], dur: float, ongoing: bool) -> None:
+        self.events_total += 1
+        self.events.append(self._item(act, dur, ongoing))
+        if len(self.events) > MAX_LIST:
+            del self.events[0]
+
+    @staticmethod
+    def _item(act: dict[str, Any], dur: float, ongoing: bool) -> dict[str, Any]:
+        return {"start": act["start"], "duration_s": round(dur, 1), "drop_db": round(act["drop_db"], 1),
+                "sats": act["sats"], "ongoing": ongoing}
+
+    # -- reading ----------------------------------------------------------------------------
+    def curve(self) -> tuple[float, float] | None:
+        n, sx, sxx, sy, sxy = self.cs
+        if n < CURVE_MIN_N:
+            return None
+        var = n * sxx - sx * sx
+        if var <= 1e-9 * n * n:  # one elevation only: flat curve
+            return (sy / n, 0.0)
+        b = (n * sxy - sx * sy) / var
+        return ((sy - b * sx) / n, b)
+
+    def snapshot(self) -> dict[str, Any]:
+        cv = self.curve()
+        weak = []
+        if cv is not None:
+            a, b = cv
+            for s in self.cur:
+                el, c = s.elev, s.cn0 or 0
+                if el is None or el < self.config.elev_mask_deg:
+                    continue
+                exp = a + b * _sin(el)
+                if c < exp - WEAK_DB:
+                    label = s.label + (f"/{s.signal}" if s.signal else "")
+                    weak.append({"sat": label, "elev": el, "azim": s.azim, "cn0": c, "expected": round(exp, 1)})
+            weak.sort(key=lambda w: (w["cn0"] - w["expected"], w["sat"]))
+        inter = list(self.events)
+        if self.active is not None:
+            inter.append(self._item(self.active, self.active["last"] - self.active["mono"], True))
+
+        def r(x: float | None) -> float | None:
+            return None if x is None else round(x, 2)
+
+        return {
+            "cn0_mean_dbhz": r(self.sum / self.n) if self.n else None,
+            "top4_mean_dbhz": r(self.top4_sum / self.top4_n) if self.top4_n else None,
+            "current": {"cn0_mean_dbhz": r(self.cur_mean), "top4_mean_dbhz": r(self.cur_top4),
+                        "tracked": len(self.cur)},
+            "by_sat": [{"sat": x.label + (f"/{x.signal}" if x.signal else ""), "cn0": x.cn0, "elev": x.elev,
+                        "azim": x.azim} for x in sorted(self.cur, key=lambda x: x.key)[:MAX_SATS]],
+            "by_system": {k: r(v[0] / v[1]) for k, v in sorted(self.by_sys.items()) if v[1]},
+            "by_elevation": [{"from": 10 * i, "to": 10 * i + 10, "mean": r(b[0] / b[1]) if b[1] else None,
+                              "n": b[1]} for i, b in enumerate(self.bands)],
+            "curve": None if cv is None else {"a": round(cv[0], 3), "b": round(cv[1], 3),
+                                              "n": int(self.cs[0])},
+            "weak": weak[:32],
+            "interference": inter,
+            "interference_count": self.events_total + (self.active is not None),
+            "interference_active": self.active is not None,
+        }

@@ -1,0 +1,155 @@
+"""Sky obstruction map: where satellites were in view but not tracked, accumulated over the session.
+
+Why: a receiver lists satellites it expects above the horizon (from almanac/ephemeris) even when it
+cannot track them; a sector where they stay untracked is a wall, roof or mast. The map counts
+samples (one per second) per satellite in a 10° azimuth × 5° elevation grid (grid[el_row][az_col],
+row 0 = 0–5°, col 0 = 0–10° from north), with mean C/N0 of the tracked ones. A column is blocked up to the top of the
+highest cell that, walking up from the elevation mask, is still mostly (≥ 50 %) untracked; adjacent
+blocked columns (bridging one column without data) merge into named sectors. Cells below
+config.elev_mask_deg never count towards obstruction. Memory is fixed (648 cells).
+Only epochs with a fix and at least 4 tracked satellites count, and none while an interference
+event is open: during acquisition, outages and jamming satellites are untracked in every direction,
+which says nothing about the site.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import Any
+
+from livefix.analysis.config import AnalysisConfig
+from livefix.state.epoch import Epoch
+
+AZ_STEP = 10
+EL_STEP = 5
+N_AZ = 360 // AZ_STEP
+N_EL = 90 // EL_STEP
+SAMPLE_S = 0.95  # one sample per ~second of stream time, whatever the output rate
+MIN_N = 3  # samples in a cell before it counts
+BLOCKED_SHARE = 0.5  # untracked share that makes a cell blocked
+MIN_TRACKED = 4
+CLEAR_SHARE = 0.9  # tracked share that makes a cell clear for clear_above_deg
+
+
+class SkyMap:
+    def __init__(self, config: AnalysisConfig) -> None:
+        self.config = config
+        self.reset()
+
+    def reset(self) -> None:
+        n = N_AZ * N_EL
+        self.tracked = [0] * n
+        self.untracked = [0] * n
+        self.cn0 = [0.0] * n
+        self._t = -math.inf
+
+    def on_epoch(self, ep: Epoch, suspend: bool = False) -> None:
+        dt = ep.mono - self._t
+        if suspend or ep.quality <= 0 or 0 <= dt < SAMPLE_S:
+            return
+        self._t = ep.mono
+        per: dict[tuple[str, int], tuple[int, int, int]] = {}  # one entry per satellite: max C/N0
+        for s in ep.sats:
+            if s.elev is None or s.azim is None or not 0 <= s.elev <= 90:
+                continue
+            c = s.cn0 if s.cn0 and s.cn0 > 0 else 0
+            k = (s.system, s.prn)
+            old = per.get(k)
+            if old is None or c > old[2]:
+                per[k] = (s.elev, s.azim, c)
+        if sum(1 for v in per.values() if v[2]) < MIN_TRACKED:
+            return
+        tr, un, cn = self.tracked, self.untracked, self.cn0
+        for el, az, c in per.values():
+            i = min(el // EL_STEP, N_EL - 1) * N_AZ + (int(az) % 360) // AZ_STEP
+            if c:
+                tr[i] += 1
+                cn[i] += c
+            else:
+                un[i] += 1
+
+    def _first_row(self) -> int:
+        return min(N_EL - 1, math.ceil(self.config.elev_mask_deg / EL_STEP - 1e-9))
+
+    def column_blocked(self) -> list[int | None]:
+        """Per azimuth column: blocked below this elevation (0 = clear), None = no data above the mask."""
+        tr, un, r0 = self.tracked, self.untracked, self._first_row()
+        out: list[int | None] = []
+        for j in range(N_AZ):
+            top, seen = 0, False
+            for r in range(r0, N_EL):
+                i = r * N_AZ + j
+                n = tr[i] + un[i]
+                if n < MIN_N:
+                    continue
+                seen = True
+                if un[i] / n >= BLOCKED_SHARE:
+                    top = (r + 1) * EL_STEP
+                else:
+                    break
+            out.append(top if seen else None)
+        return out
+
+    def sectors(self) -> list[dict[str, Any]]:
+        col = self.column_blocked()
+        blocked = [bool(c) for c in col]
+        # bridge single columns without data between blocked ones
+        for j in range(N_AZ):
+            if col[j] is None and blocked[(j - 1) % N_AZ] and blocked[(j + 1) % N_AZ]:
+                blocked[j] = True
+        if all(blocked):
+            return [self._sector(0, N_AZ, col)]
+        if not any(blocked):
+            return []
+        start = next(j for j in range(N_AZ) if not blocked[j])  # begin scanning at a clear column
+        out, run = [], None
+        for step in range(1, N_AZ + 1):
+            j = (start + step) % N_AZ
+            if blocked[j] and run is None:
+                run = step
+            elif not blocked[j] and run is not None:
+                out.append(self._sector((start + run) % N_AZ, step - run, col))
+                run = None
+        if run is not None:
+            out.append(self._sector((start + run) % N_AZ, N_AZ + 1 - run, col))
+        out.sort(key=lambda s: s["az_from"])
+        return out
+
+    @staticmethod
+    def _sector(j0: int, length: int, col: list[int | None]) -> dict[str, Any]:
+        below = max((col[(j0 + k) % N_AZ] or 0) for k in range(length))
+        a0 = j0 * AZ_STEP
+        a1 = (a0 + length * AZ_STEP) % 360 if length < N_AZ else 360
+        return {"az_from": a0, "az_to": a1, "below_el": below,
+                "text": f"blocked {a0}°–{a1}° below {below}°"}
+
+    def clear_above(self) -> float | None:
+        tr, un, r0 = self.tracked, self.untracked, self._first_row()
+        any_data = False
+        for r in range(N_EL - 1, r0 - 1, -1):
+            for j in range(N_AZ):
+                i = r * N_AZ + j
+                n = tr[i] + un[i]
+                if n < MIN_N:
+                    continue
+                any_data = True
+                if tr[i] / n < CLEAR_SHARE:
+                    return float((r + 1) * EL_STEP)
+        return float(max(r0 * EL_STEP, 0)) if any_data else None
+
+    def snapshot(self) -> dict[str, Any]:
+        r0 = self._first_row()
+        t = sum(self.tracked[r0 * N_AZ:])
+        u = sum(self.untracked[r0 * N_AZ:])
+        tr, un, cn = self.tracked, self.untracked, self.cn0
+        rows = range(N_EL)
+        return {
+            "obstructed": self.sectors(),
+            "grid": {"az_step": AZ_STEP, "el_step": EL_STEP,
+                     "tracked": [tr[r * N_AZ:(r + 1) * N_AZ] for r in rows],
+                     "untracked": [un[r * N_AZ:(r + 1) * N_AZ] for r in rows],
+                     "cn0": [[round(cn[i] / tr[i], 1) if tr[i] else None
+                              for i in range(r * N_AZ, (r + 1) * N_AZ)] for r in rows]},
+            "clear_above_deg": self.clear_above(),
+            "visible_share": round(t / (t + u), 4) if t + u else None,
+        }

@@ -1,0 +1,1 @@
+"""Headless pass/fail checks: TOML profiles of thresholds over the analysis snapshot."""

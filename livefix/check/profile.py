@@ -1,0 +1,387 @@
+"""Check profiles: TOML thresholds over figures of the analysis snapshot, addressed by dotted path.
+
+Grammar of one threshold (a `[[threshold]]` table):
+  name        short id, unique in the profile (JUnit test case name)
+  metric      dotted path into the snapshot, e.g. "sky.clear_above_deg", "fix.longest_outage_s".
+              A segment may carry a selector: `name[3]` (list index), `name[key OP value]` keeps the
+              list entries whose `key` compares true (OP one of <= < >= > == !=; value a number or
+              text), e.g. "signal.by_elevation[from>=30].mean". Later segments map over the list.
+              "derived.*" holds figures computed here from the snapshot (see DERIVED).
+  op          <=  <  >=  >  ==
+  limit       number
+  fix         optional fix type ("rtk_fixed", "single", ...): take the figure for epochs of that fix
+              only ("position.X" -> "position.by_fix.FIX.X", "fix.availability" -> its FIX share)
+  reduce      optional for lists: min max mean sum count first last (a list defaults to count)
+  unit, description, source   text; source names the published guideline or says "common practice"
+A missing figure fails with the note "not measured": a check that could not look did not pass.
+"""
+
+from __future__ import annotations
+
+import math
+import operator
+import re
+import statistics
+import tomllib
+from collections.abc import Callable
+from dataclasses import dataclass
+from importlib import resources
+from pathlib import Path
+from typing import Any
+
+OPS: dict[str, Callable[[Any, Any], bool]] = {
+    "<=": operator.le, "<": operator.lt, ">=": operator.ge, ">": operator.gt, "==": operator.eq,
+}
+_FILTER_OPS: dict[str, Callable[[Any, Any], bool]] = {**OPS, "!=": operator.ne}
+REDUCERS: dict[str, Callable[[list[float]], float]] = {
+    "min": min, "max": max, "mean": statistics.fmean, "sum": math.fsum,
+    "count": lambda v: float(len(v)), "first": lambda v: v[0], "last": lambda v: v[-1],
+}
+# fix qualifier: how the metric path is narrowed to one fix type
+FIX_SCOPES: tuple[tuple[str, str], ...] = (("position.", "position.by_fix.{fix}."),
+                                           ("fix.availability", "fix.availability.{fix}"))
+FIX_KINDS = ("cold", "warm", "hot")
+_SEGMENT = re.compile(r"([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?(?:\.|$)")
+_FILTER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(<=|>=|==|!=|<|>)\s*(.+?)\s*$")
+_THRESHOLD_KEYS = {"name", "metric", "op", "limit", "fix", "reduce", "unit", "description", "source"}
+_TTFF_KEYS = {"n", "kind", "send", "send_hex", "command", "timeout_s", "settle_s"}
+_PROFILE_KEYS = {"name", "title", "description", "duration", "source"}
+
+
+class ProfileError(ValueError):
+    """A profile that cannot be used; the message names the file and the key."""
+
+
+@dataclass(frozen=True, slots=True)
+class Threshold:
+    name: str
+    metric: str
+    op: str
+    limit: float
+    fix: str | None = None
+    reduce: str | None = None
+    unit: str = ""
+    description: str = ""
+    source: str = "common practice"
+
+    @property
+    def path(self) -> str:
+        """The metric path after the fix qualifier is applied."""
+        if not self.fix:
+            return self.metric
+        for prefix, scoped in FIX_SCOPES:
+            if self.metric.startswith(prefix):
+                return scoped.format(fix=self.fix) + self.metric[len(prefix):]
+        return self.metric
+
+
+@dataclass(frozen=True, slots=True)
+class TTFFCycles:
+    n: int
+    kind: str
+    send: bytes | None = None
+    command: str | None = None
+    timeout_s: float = 300.0
+    settle_s: float = 3.0
+
+
+@dataclass(frozen=True, slots=True)
+class Profile:
+    name: str
+    title: str = ""
+    description: str = ""
+    duration_s: float | None = None
+    thresholds: tuple[Threshold, ...] = ()
+    ttff: TTFFCycles | None = None
+    origin: str = ""  # "built-in" or the file path
+    source: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class Result:
+    name: str
+    metric: str
+    measured: float | None
+    limit: float
+    op: str
+    passed: bool
+    source: str
+    note: str = ""
+    description: str = ""
+    unit: str = ""
+    fix: str | None = None
+
+    def to_json(self) -> dict[str, Any]:
+        return {"name": self.name, "metric": self.metric, "fix": self.fix, "measured": self.measured,
+                "op": self.op, "limit": self.limit, "unit": self.unit, "passed": self.passed,
+                "note": self.note, "description": self.description, "source": self.source}
+
+
+# -- loading ---------------------------------------------------------------------------------------
+def builtin_names() -> list[str]:
+    folder = resources.files("livefix.check") / "profiles"
+    return sorted(p.name[:-5] for p in folder.iterdir() if p.name.endswith(".toml"))
+
+
+def load_profile(name_or_path: str) -> Profile:
+    """A built-in profile by name, or the user's own TOML file by path."""
+    path = Path(name_or_path)
+    if name_or_path.endswith(".toml") or path.exists():
+        try:
+            text = path.read_text(encoding="utf-8")
+        except OSError as exc:
+            raise ProfileError(f"profile {name_or_path}: cannot read ({exc.strerror or exc})") from exc
+        return parse_profile(text, origin=str(path), builtin=False)
+    folder = resources.files("livefix.check") / "profiles"
+    res = folder / f"{name_or_path}.toml"
+    if not re.fullmatch(r"[A-Za-z0-9_-]+", name_or_path) or not res.is_file():
+        raise ProfileError(f"no profile {name_or_path!r}: built-in profiles are "
+                           f"{', '.join(builtin_names())}, or give a path to a .toml file")
+    return parse_profile(res.read_text(encoding="utf-8"), origin="built-in", builtin=True)
+
+
+def parse_profile(text: str, origin: str = "<text>", builtin: bool = False) -> Profile:
+    where = f"profile {origin}"
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise ProfileError(f"{where}: not valid TOML ({exc})") from exc
+    unknown = set(data) - {"profile", "threshold", "ttff_cycles"}
+    if unknown:
+        raise ProfileError(f"{where}: unknown section {sorted(unknown)[0]!r} "
+                           "(expected [profile], [[threshold]], [ttff_cycles])")
+    head = data.get("profile", {})
+    _no_unknown(head, _PROFILE_KEYS, f"{where}: [profile]")
+    duration = None
+    if "duration" in head:
+        from livefix.timefmt import parse_duration
+
+        try:
+            duration = parse_duration(str(head["duration"]))
+        except ValueError as exc:
+            raise ProfileError(f"{where}: [profile] key 'duration': {exc}") from exc
+    raw = data.get("threshold", [])
+    if not isinstance(raw, list):
+        raise ProfileError(f"{where}: 'threshold' must be an array of tables ([[threshold]])")
+    thresholds = tuple(_threshold(t, f"{where}: [[threshold]] #{i + 1}") for i, t in enumerate(raw))
+    names = [t.name for t in thresholds]
+    dup = next((n for n in names if names.count(n) > 1), None)
+    if dup:
+        raise ProfileError(f"{where}: threshold name {dup!r} is used twice")
+    ttff = _ttff(data["ttff_cycles"], f"{where}: [ttff_cycles]", builtin) if "ttff_cycles" in data else None
+    if not thresholds and ttff is None:
+        raise ProfileError(f"{where}: no [[threshold]] and no [ttff_cycles]: nothing to check")
+    name = str(head.get("name") or Path(origin).stem)
+    return Profile(name=name, title=str(head.get("title", "")), description=str(head.get("description", "")),
+                   duration_s=duration, thresholds=thresholds, ttff=ttff, origin=origin,
+                   source=str(head.get("source", "")))
+
+
+def _no_unknown(table: dict[str, Any], allowed: set[str], where: str) -> None:
+    if not isinstance(table, dict):
+        raise ProfileError(f"{where}: must be a table")
+    extra = sorted(set(table) - allowed)
+    if extra:
+        raise ProfileError(f"{where}: unknown key {extra[0]!r} (allowed: {', '.join(sorted(allowed))})")
+
+
+def _threshold(t: Any, where: str) -> Threshold:
+    _no_unknown(t, _THRESHOLD_KEYS, where)
+    for key in ("name", "metric", "op", "limit"):
+        if key not in t:
+            raise ProfileError(f"{where}: missing key {key!r}")
+    where = f"{where} ({t['name']!r})"
+    if not isinstance(t["metric"], str) or not _valid_path(t["metric"]):
+        raise ProfileError(f"{where}: key 'metric' is not a dotted path: {t['metric']!r}")
+    if t["op"] not in OPS:
+        raise ProfileError(f"{where}: key 'op' must be one of {' '.join(OPS)}, got {t['op']!r}")
+    if isinstance(t["limit"], bool) or not isinstance(t["limit"], int | float):
+        raise ProfileError(f"{where}: key 'limit' must be a number, got {t['limit']!r}")
+    if t.get("reduce") is not None and t["reduce"] not in REDUCERS:
+        raise ProfileError(f"{where}: key 'reduce' must be one of {', '.join(REDUCERS)}, got {t['reduce']!r}")
+    fix = t.get("fix")
+    if fix is not None:
+        from livefix.state.epoch import FIX_NAMES
+
+        if fix not in FIX_NAMES.values():
+            raise ProfileError(f"{where}: key 'fix' must be one of {', '.join(FIX_NAMES.values())}")
+        if not any(t["metric"].startswith(p) for p, _ in FIX_SCOPES):
+            raise ProfileError(f"{where}: key 'fix' applies only to position.* or fix.availability")
+    return Threshold(name=str(t["name"]), metric=t["metric"], op=t["op"], limit=float(t["limit"]), fix=fix,
+                     reduce=t.get("reduce"), unit=str(t.get("unit", "")),
+                     description=str(t.get("description", "")), source=str(t.get("source", "common practice")))
+
+
+def _ttff(t: Any, where: str, builtin: bool) -> TTFFCycles:
+    _no_unknown(t, _TTFF_KEYS, where)
+    n = t.get("n", 5)
+    if isinstance(n, bool) or not isinstance(n, int) or not 1 <= n <= 1000:
+        raise ProfileError(f"{where}: key 'n' must be a whole number 1..1000, got {n!r}")
+    kind = t.get("kind", "cold")
+    if kind not in FIX_KINDS:
+        raise ProfileError(f"{where}: key 'kind' must be one of {', '.join(FIX_KINDS)}, got {kind!r}")
+    given = [k for k in ("send", "send_hex", "command") if k in t]
+    if len(given) > 1:
+        raise ProfileError(f"{where}: give only one of 'send', 'send_hex', 'command' (got {', '.join(given)})")
+    send: bytes | None = None
+    command = None
+    if "command" in t:
+        if builtin:
+            raise ProfileError(f"{where}: key 'command' is honoured only in your own profile file")
+        command = str(t["command"])
+    elif "send_hex" in t:
+        try:
+            send = bytes.fromhex(str(t["send_hex"]))
+        except ValueError as exc:
+            raise ProfileError(f"{where}: key 'send_hex' is not hex bytes ({exc})") from exc
+    else:
+        send = restart_sentence(str(t.get("send", f"$PLFX,RESET,{kind.upper()}")))
+    for key, default in (("timeout_s", 300.0), ("settle_s", 3.0)):
+        v = t.get(key, default)
+        if isinstance(v, bool) or not isinstance(v, int | float) or v < 0:
+            raise ProfileError(f"{where}: key {key!r} must be a number of seconds >= 0, got {v!r}")
+    return TTFFCycles(n=n, kind=kind, send=send, command=command, timeout_s=float(t.get("timeout_s", 300.0)),
+                      settle_s=float(t.get("settle_s", 3.0)))
+
+
+def restart_sentence(text: str) -> bytes:
+    """Text to send; a '$...' sentence without '*hh' gets its NMEA checksum, and CR LF is ensured."""
+    text = text.rstrip("\r\n")
+    if text.startswith("$") and "*" not in text:
+        cs = 0
+        for ch in text[1:].encode("ascii", errors="replace"):
+            cs ^= ch
+        text = f"{text}*{cs:02X}"
+    return text.encode("utf-8") + b"\r\n"
+
+
+def _valid_path(path: str) -> bool:
+    pos = 0
+    for m in _SEGMENT.finditer(path):
+        if m.start() != pos:
+            return False
+        pos = m.end()
+    return pos == len(path) and not path.endswith(".")
+
+
+# -- evaluating ------------------------------------------------------------------------------------
+class _Missing(Exception):
+    pass
+
+
+def derived(analysis: dict[str, Any]) -> dict[str, Any]:
+    """Figures the profiles need that are simple functions of the snapshot."""
+    out: dict[str, Any] = {}
+    fix = analysis.get("fix") or {}
+    avail = fix.get("availability")
+    if isinstance(avail, dict) and avail:
+        out["fix_share"] = math.fsum(v for k, v in avail.items() if k != "none" and _is_num(v))
+        after = _share_after(fix, avail, "ttff_s", lambda k: k != "none")
+        if after is not None:
+            out["fix_share_after_first_fix"] = after
+        after = _share_after(fix, avail, "ttff_rtk_fixed_s", lambda k: k == "rtk_fixed")
+        if after is not None:
+            out["rtk_fixed_share_after_first"] = after
+    stream = analysis.get("stream") or {}
+    if _is_num(stream.get("lines")) and _is_num(stream.get("bad_checksum")):
+        out["checksum_error_share"] = stream["bad_checksum"] / max(stream["lines"], 1)
+    drift = (analysis.get("position") or {}).get("drift_mm_per_h") or {}
+    if _is_num(drift.get("e")) and _is_num(drift.get("n")):
+        out["drift_h_mm_per_h"] = math.hypot(drift["e"], drift["n"])
+    return out
+
+
+def _share_after(fix: dict[str, Any], avail: dict[str, Any], ttff_key: str, wanted: Callable[[str], bool]) -> float | None:
+    """Share of epochs of the wanted fix types once the first such fix came (the acquisition at the
+    start is TTFF's business, not availability's). Epoch counts are rebuilt from shares."""
+    starts = fix.get("starts") or []
+    ttff = (starts[0] if starts else fix).get(ttff_key)
+    total, interval = fix.get("epochs"), fix.get("interval_s")
+    if not (_is_num(ttff) and _is_num(total) and _is_num(interval)) or interval <= 0 or total <= 0:
+        return None
+    before = min(round(ttff / interval), total)
+    good = round(total * math.fsum(v for k, v in avail.items() if wanted(k) and _is_num(v)))
+    rest = total - before
+    return None if rest <= 0 else min(1.0, good / rest)
+
+
+DERIVED = ("fix_share", "fix_share_after_first_fix", "rtk_fixed_share_after_first", "checksum_error_share",
+           "drift_h_mm_per_h")
+
+
+def _is_num(v: Any) -> bool:
+    return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
+
+
+def _scalar(text: str) -> Any:
+    try:
+        return float(text)
+    except ValueError:
+        return text.strip("'\"")
+
+
+def resolve(analysis: dict[str, Any], path: str) -> Any:
+    """The value at a dotted path (with selectors); raises _Missing when absent."""
+    value: Any = {**analysis, "derived": derived(analysis)}
+    many = False
+    for m in _SEGMENT.finditer(path):
+        key, sel = m.group(1), m.group(2)
+        if many:
+            value = [v[key] for v in value if isinstance(v, dict) and key in v]
+        elif isinstance(value, dict) and key in value:
+            value = value[key]
+        else:
+            raise _Missing(key)
+        if sel is None:
+            continue
+        if not isinstance(value, list):
+            raise _Missing(f"{key} is not a list")
+        fm = _FILTER.match(sel)
+        if fm:
+            fkey, fop, fval = fm.group(1), _FILTER_OPS[fm.group(2)], _scalar(fm.group(3))
+            value = [v for v in value if isinstance(v, dict) and _cmp(fop, v.get(fkey), fval)]
+            many = True
+        else:
+            try:
+                value = value[int(sel)]
+            except (ValueError, IndexError) as exc:
+                raise _Missing(f"{key}[{sel}]") from exc
+    if value is None:
+        raise _Missing(path)
+    return value
+
+
+def _cmp(op: Callable[[Any, Any], bool], a: Any, b: Any) -> bool:
+    try:
+        return bool(op(a, b)) if a is not None else False
+    except TypeError:
+        return bool(op(str(a), str(b)))
+
+
+def measure(analysis: dict[str, Any], t: Threshold) -> tuple[float | None, str]:
+    """(measured value, note); None with the reason when there is nothing to compare."""
+    try:
+        value = resolve(analysis, t.path)
+    except _Missing:
+        return None, "not measured"
+    if isinstance(value, list | tuple):
+        values = [float(v) for v in value if _is_num(v)] if t.reduce not in (None, "count") else list(value)
+        if not values and t.reduce not in (None, "count"):
+            return None, "not measured (no entries)"
+        return float(REDUCERS[t.reduce or "count"](values)), ""
+    if isinstance(value, bool):
+        return float(value), ""
+    if not _is_num(value):
+        return None, f"not a number ({type(value).__name__})"
+    return float(value), ""
+
+
+def evaluate(profile: Profile, analysis: dict[str, Any]) -> list[Result]:
+    results = []
+    for t in profile.thresholds:
+        measured, note = measure(analysis, t)
+        passed = measured is not None and OPS[t.op](measured, t.limit)
+        results.append(Result(name=t.name, metric=t.metric, measured=measured, limit=t.limit, op=t.op,
+                              passed=passed, source=t.source, note=note, description=t.description,
+                              unit=t.unit, fix=t.fix))
+    return results

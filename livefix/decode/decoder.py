@@ -1,0 +1,240 @@
+"""The decoder: checksum and header checks, the fast path, the pynmeagps fallback, counters.
+
+One line in, one `Decoded` or `Rejected` out; nothing raises on stream content. The checksum is
+checked here for every line (NMEA 0183: XOR of the characters between '$'/'!' and '*', two hex
+digits, either case) so that a refused line gets the same reason whichever path would decode it.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from pynmeagps import NMEAReader
+from pynmeagps.nmeatypes_core import NMEA_MSGIDS_PROP, NMEA_PREFIX_PROP, NMEA_TALKERS, VALCKSUM
+from pynmeagps.nmeatypes_get import NMEA_PAYLOADS_GET
+
+from livefix.decode import (
+    BAD_CHECKSUM,
+    MALFORMED,
+    NO_CHECKSUM,
+    UNKNOWN,
+    DecodeCounters,
+    Decoded,
+    Rejected,
+)
+from livefix.decode.fast import FAST_DECODERS, FAST_TYPES, decode_fields
+
+_HEX = frozenset("0123456789abcdefABCDEF")
+_TALKERS = frozenset(t for t in NMEA_TALKERS if len(t) == 2)
+_KNOWN = frozenset(NMEA_PAYLOADS_GET)
+_PROP_KNOWN = frozenset(NMEA_MSGIDS_PROP) | frozenset(NMEA_PREFIX_PROP)
+_M512, _M256, _M128, _M64, _M32 = ((1 << s) - 1 for s in (512, 256, 128, 64, 32))
+_XOR16 = bytes((i >> 8) ^ (i & 255) for i in range(65536))  # last fold as a table lookup
+
+
+def xor_checksum(body: bytes) -> int:
+    """XOR of all bytes, folding the bytes as one big int (a few int ops instead of a byte loop)."""
+    if len(body) > 128:
+        x = 0
+        for i in range(0, len(body), 128):
+            x ^= int.from_bytes(body[i : i + 128], "little")
+    else:
+        x = int.from_bytes(body, "little")
+    x = (x >> 512) ^ (x & _M512)
+    x = (x >> 256) ^ (x & _M256)
+    x = (x >> 128) ^ (x & _M128)
+    x = (x >> 64) ^ (x & _M64)
+    x = (x >> 32) ^ (x & _M32)
+    return _XOR16[(x >> 16) ^ (x & 65535)]
+
+
+def _public(msg: Any) -> dict[str, Any]:
+    return {k: v for k, v in vars(msg).items() if not k.startswith("_")}
+
+
+# "*4b" -> what the XOR of a whole "$...*4b" line must be: 0x4B ^ '$' ^ '*' ^ '4' ^ 'b'.
+_STARHEX = {f"*{a}{b}": int(a + b, 16) ^ 0x24 ^ 0x2A ^ ord(a) ^ ord(b) for a in _HEX for b in _HEX}
+# "$GPGGA," -> (header, talker, msg_id, field decoder) for every accepted talker and fast type.
+_FAST_HDR = {f"${t}{m},": (t + m, t, m, FAST_DECODERS[m]) for t in _TALKERS for m in FAST_TYPES}
+# Types whose lines often repeat byte for byte (no time field); only these enter the line cache.
+_REPEATING = frozenset({"GSA", "VTG"})
+_new = object.__new__
+_set_talker, _set_id, _set_fields, _set_prop = (Decoded.talker.__set__, Decoded.msg_id.__set__,
+                                                Decoded.fields.__set__, Decoded.proprietary.__set__)
+
+
+class Decoder:
+    """Sans-I/O decoder with running counters; see livefix.decode for the contract.
+
+    Fast-path successes are tallied per header ("GPGSV") in a private dict and folded into
+    `counters` whenever it is read, which keeps the per-line cost to one dict update.
+    Not thread-safe: one decoder per pipeline.
+    """
+
+    def __init__(self, line_cache: int = 1024) -> None:
+        """line_cache: how many recent fast-path lines to remember (0 turns the cache off).
+
+        Receivers repeat GSA and VTG sentences byte for byte for long stretches; a repeat then
+        costs one dict lookup and a copy of its fields.
+        """
+        self._counters = DecodeCounters()
+        self._pending: dict[str, int] = {}
+        self._cache_max = max(0, line_cache)
+        self._lines: dict[bytes, tuple[str, str, str, dict[str, Any]]] = {}
+
+    @property
+    def counters(self) -> DecodeCounters:
+        """Up-to-date counts (the same object every time; copy() it for a snapshot)."""
+        if self._pending:
+            c, pend = self._counters, self._pending
+            self._pending = {}
+            for hdr, n in pend.items():
+                m = hdr[2:]
+                c.decoded += n
+                c.fast += n
+                c.by_type[m] = c.by_type.get(m, 0) + n
+                c.by_talker_type[hdr] = c.by_talker_type.get(hdr, 0) + n
+        return self._counters
+
+    # -- outcomes -------------------------------------------------------------------------------
+    def _ok(self, talker: str, msg_id: str, fields: dict[str, Any], proprietary: bool = False) -> Decoded:
+        c = self._counters
+        c.decoded += 1
+        if proprietary:
+            c.proprietary += 1
+        c.by_type[msg_id] = c.by_type.get(msg_id, 0) + 1
+        tt = talker + msg_id
+        c.by_talker_type[tt] = c.by_talker_type.get(tt, 0) + 1
+        return Decoded(talker, msg_id, fields, proprietary)
+
+    def _no(self, reason: str, msg_id: str, raw: bytes, detail: str = "") -> Rejected:
+        c = self._counters
+        if reason == BAD_CHECKSUM:
+            c.bad_checksum += 1
+        elif reason == UNKNOWN:
+            c.unknown += 1
+        else:
+            c.malformed += 1
+        c.rejected_by_type[msg_id] = c.rejected_by_type.get(msg_id, 0) + 1
+        return Rejected(reason, msg_id, raw, detail)
+
+    # -- main entry -----------------------------------------------------------------------------
+    def decode(self, line: bytes) -> Decoded | Rejected:
+        """Decode one framed sentence (no CR/LF). Never raises on content."""
+        try:
+            if line.__class__ is not bytes:  # a bytearray or memoryview: decode a bytes copy
+                line = bytes(line)
+            hit = self._lines.get(line)
+            if hit is not None:  # the very same line as before: same checksum, same fields
+                fields = dict(hit[3])
+            else:
+                # The common case inline: "$TTMMM,...*hh", ASCII, fast type, at most 128 bytes.
+                try:
+                    s = line.decode("ascii")
+                except UnicodeDecodeError:
+                    return self._decode(line)
+                hit = _FAST_HDR.get(s[:7])
+                want = _STARHEX.get(s[-3:])
+                if hit is None or want is None or len(line) > 128 or s.find("*", 7, -3) >= 0:
+                    return self._decode(line)
+                # Checksum: fold the whole line; `want` already holds the XOR of '$', '*' and
+                # the two hex characters on top of the stated value, so no slice is needed.
+                x = int.from_bytes(line, "little")
+                x = (x >> 512) ^ (x & _M512)
+                x = (x >> 256) ^ (x & _M256)
+                x = (x >> 128) ^ (x & _M128)
+                x = (x >> 64) ^ (x & _M64)
+                x = (x >> 32) ^ (x & _M32)
+                if _XOR16[(x >> 16) ^ (x & 65535)] != want:
+                    return self._decode(line)
+                try:
+                    fields = hit[3](s[7:-3].split(","))
+                except ValueError:  # pynmeagps raises NMEATypeError for the same text
+                    return self._no(MALFORMED, hit[2], line, "bad numeric field")
+                except Exception:  # unusual shape: let the reference decide
+                    return self._fallback(line, hit[1], hit[2])
+                if self._cache_max and hit[2] in _REPEATING:
+                    lines = self._lines
+                    if len(lines) >= self._cache_max:
+                        lines.clear()
+                    lines[line] = (hit[0], hit[1], hit[2], dict(fields))
+            hdr = hit[0]
+            pend = self._pending
+            pend[hdr] = pend.get(hdr, 0) + 1
+            d = _new(Decoded)
+            _set_talker(d, hit[1])
+            _set_id(d, hit[2])
+            _set_fields(d, fields)
+            _set_prop(d, False)
+            return d
+        except Exception as err:  # last line of defence: count it, keep going
+            return self._no(MALFORMED, "?", bytes(line), f"internal: {type(err).__name__}")
+
+    def _decode(self, line: bytes) -> Decoded | Rejected:
+        """The general path: every check spelled out, each refusal with its reason."""
+        if not line.isascii():
+            return self._no(MALFORMED, _guess_id(line), line, "non-ASCII bytes")
+        star = line.find(b"*")
+        if star < 0 or len(line) - star < 3:
+            return self._no(NO_CHECKSUM, _guess_id(line), line, "no *hh checksum")
+        lead = line[:1]
+        if lead != b"$" and lead != b"!":
+            return self._no(MALFORMED, "?", line, "does not start with $ or !")
+        s = line.decode("ascii")
+        cks = s[star + 1 :]
+        if len(cks) != 2 or cks[0] not in _HEX or cks[1] not in _HEX:
+            return self._no(BAD_CHECKSUM, _guess_id(line), line, f"checksum field {cks!r}")
+        body = s[1:star]
+        if xor_checksum(line[1:star]) != int(cks, 16):
+            return self._no(BAD_CHECKSUM, _guess_id(line), line, "checksum mismatch")
+        hdr, comma, rest = body.partition(",")
+        if not hdr.isalnum():
+            return self._no(MALFORMED, "?", line, "bad header")
+        if hdr[0] == "P" and lead == b"$":
+            return self._proprietary(line, hdr[1:], body)
+        talker, msg_id = hdr[:2], hdr[2:]
+        if lead != b"$" or talker not in _TALKERS or msg_id not in _KNOWN:
+            return self._no(UNKNOWN, msg_id or "?", line, f"unknown sentence {hdr}")
+        if msg_id in FAST_TYPES:
+            try:
+                fields = decode_fields(msg_id, rest.split(",") if comma else [])
+            except ValueError:  # pynmeagps raises NMEATypeError for the same text
+                return self._no(MALFORMED, msg_id, line, "bad numeric field")
+            except Exception:  # unusual shape: let the reference decide
+                return self._fallback(line, talker, msg_id)
+            self._counters.fast += 1
+            return self._ok(talker, msg_id, fields)
+        return self._fallback(line, talker, msg_id)
+
+    def _fallback(self, line: bytes, talker: str, msg_id: str) -> Decoded | Rejected:
+        try:
+            msg = NMEAReader.parse(line, validate=VALCKSUM)
+        except Exception as err:  # NMEAParseError, NMEATypeError, anything else
+            return self._no(MALFORMED, msg_id, line, f"{type(err).__name__}: {err}"[:200])
+        if msg is None:
+            return self._no(MALFORMED, msg_id, line, "unparseable")
+        return self._ok(talker, msg_id, _public(msg))
+
+    def _proprietary(self, line: bytes, text: str, body: str) -> Decoded:
+        """Pass proprietary sentences through; add pynmeagps attributes only if it knows the type."""
+        payload = body.split(",")[1:]
+        fields: dict[str, Any] = {"payload": payload}
+        if text in _PROP_KNOWN:
+            try:
+                msg = NMEAReader.parse(line, validate=VALCKSUM)
+                if msg is not None:
+                    fields = {**_public(msg), "payload": payload}
+            except Exception:  # noqa: S110 - unknown variant: the raw payload is still delivered
+                pass
+        return self._ok("P", text or "?", fields, proprietary=True)
+
+
+def _guess_id(line: bytes) -> str:
+    """Best guess of the sentence type of a refused line, for per-type reject counts."""
+    hdr = line[1:].split(b",", 1)[0].split(b"*", 1)[0]
+    if not hdr.isalnum() or not hdr.isascii():
+        return "?"
+    h = hdr.decode("ascii")
+    if h[:1] == "P":
+        return h[1:] or "?"
+    return h[2:] or "?"

@@ -1,0 +1,1 @@
+"""Live exports for fleets and benches (Prometheus metrics)."""

@@ -1,0 +1,65 @@
+"""`livefix report FILE`: analyse a recording or NMEA log and write JSON/Markdown/HTML (+ JUnit with
+a profile). `--json` prints the final analysis snapshot to stdout instead. No verdict unless a
+profile is given."""
+
+from __future__ import annotations
+
+import argparse
+import sys
+import threading
+
+from livefix.report.escape import term_text
+
+FORMATS = ("json", "md", "html")
+
+
+def add_arguments(p: argparse.ArgumentParser) -> None:
+    p.add_argument("file", help="a livefix recording or a plain NMEA log")
+    p.add_argument("--json", action="store_true", help="print the analysis snapshot as JSON on stdout")
+    p.add_argument("--format", choices=FORMATS, action="append",
+                   help="document to write (repeatable; default all three)")
+    p.add_argument("-o", "--output", metavar="DIR", default=".", help="folder for the documents (default .)")
+    p.add_argument("--ref", help="surveyed point LAT,LON,H (WGS 84, ellipsoidal height)")
+    p.add_argument("--profile", help="also judge against a profile (built-in name or .toml); adds junit.xml")
+    p.add_argument("--site", default="", help="site description for the report")
+
+
+def run(args: argparse.Namespace) -> int:
+    from livefix.analysis.config import AnalysisConfig
+    from livefix.check.command import parse_ref
+    from livefix.check.profile import ProfileError, evaluate, load_profile
+    from livefix.pipeline import Pipeline
+    from livefix.report.document import ReceiverRun, build_report, to_json, write_all
+    from livefix.sources import SourceError, open_source
+
+    try:
+        ref = parse_ref(args.ref) if args.ref else None
+        profile = load_profile(args.profile) if args.profile else None
+        src = open_source(args.file, speed=None)
+    except (ProfileError, SourceError, ValueError) as exc:
+        print(f"livefix report: {term_text(exc)}", file=sys.stderr)
+        return 2
+    if not src.finite:
+        print(f"livefix report: {term_text(args.file)} is not a file or recording", file=sys.stderr)
+        return 2
+    p = Pipeline(AnalysisConfig(ref=ref), src.name)
+    stop = threading.Event()
+    for item in src.items(stop):
+        p.feed(item)
+    src.close()
+    p.finish()
+    snap = p.snapshot()
+    if args.json:
+        sys.stdout.write(to_json(snap.analysis) + "\n")
+        return 0
+    results = evaluate(profile, snap.analysis) if profile is not None else None
+    run_ = ReceiverRun(name="rx1", source=args.file, analysis=snap.analysis, results=results,
+                       recording=args.file, link=snap.link, link_detail=snap.link_detail,
+                       extra={"bytes": snap.counters.bytes})
+    report = build_report([run_], profile=profile, site=args.site, ref=ref, started=None, ended=None,
+                          command="livefix report " + args.file)
+    for path in write_all(report, args.output, tuple(args.format or FORMATS), junit=profile is not None):
+        print(f"wrote {term_text(path)}", file=sys.stderr)
+    if profile is None:
+        return 0
+    return 0 if report["verdict"] == "pass" else 1

@@ -1,0 +1,199 @@
+"""The report document: one JSON-able dict made from the final snapshots, verdicts and metadata.
+
+Every renderer (JSON, Markdown, HTML, JUnit) reads this one dict, so they always agree.
+"""
+
+from __future__ import annotations
+
+import json
+import math
+import time
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+
+from livefix import __version__
+from livefix.timefmt import iso
+
+FORMAT = "livefix-report/1"
+
+CAUTIONS = (
+    "Work at height: antennas sit on roofs, masts and towers. Follow the local rules for work at "
+    "height, use fall protection and do not work alone.",
+    "Lightning and surges: ground the antenna mast and protect the antenna cable with a surge "
+    "arrester where it enters the building, as local electrical codes require.",
+    "This report records what the receiver said during the run. It is not a survey certificate and "
+    "does not replace a survey or an inspection by a licensed professional.",
+    "Local codes, permits and licensed practice take precedence over anything in this report.",
+)
+
+# Comparison table rows: (label, dotted path, unit, digits). Paths go through the profile grammar.
+KEY_FIGURES: tuple[tuple[str, str, str, int], ...] = (
+    ("Epochs", "stream.epochs", "", 0),
+    ("Fix availability (whole run)", "derived.fix_share", "ratio", 4),
+    ("RTK fixed share (whole run)", "fix.availability.rtk_fixed", "ratio", 4),
+    ("TTFF", "fix.ttff_s", "s", 1),
+    ("Time to RTK fixed", "fix.ttff_rtk_fixed_s", "s", 1),
+    ("CEP50", "position.cep50_m", "m", 3),
+    ("CEP95", "position.cep95_m", "m", 3),
+    ("Vertical 95 %", "position.v95_m", "m", 3),
+    ("Longest outage", "fix.longest_outage_s", "s", 1),
+    ("Jumps", "fix.jumps_total", "count", 0),
+    ("Stalls", "stream.stall_count", "count", 0),
+    ("Checksum errors", "stream.bad_checksum", "count", 0),
+    ("Mean C/N0", "signal.cn0_mean_dbhz", "dB-Hz", 1),
+    ("Clear sky above", "sky.clear_above_deg", "deg", 0),
+    ("Computed HDOP", "dop.computed.hdop", "", 2),
+)
+
+
+@dataclass(slots=True)
+class ReceiverRun:
+    """What one receiver produced in a run; `results` is None when no profile was applied."""
+
+    name: str
+    source: str
+    analysis: dict[str, Any]
+    results: list[Any] | None = None  # livefix.check.profile.Result
+    recording: str | None = None
+    recording_error: str | None = None
+    ttff_cycles: dict[str, Any] | None = None
+    link: str = ""
+    link_detail: str = ""
+    extra: dict[str, Any] = field(default_factory=dict)
+
+    @property
+    def verdict(self) -> str | None:
+        ok = self.passed
+        return None if ok is None else ("pass" if ok else "fail")
+
+    @property
+    def passed(self) -> bool | None:
+        if self.results is None and self.ttff_cycles is None:
+            return None
+        ok = all(r.passed for r in self.results or [])
+        if self.ttff_cycles is not None:
+            ok = ok and bool(self.ttff_cycles.get("passed", False))
+        return ok
+
+
+def figure(analysis: dict[str, Any], path: str) -> float | None:
+    """A key figure by dotted path (lists count), None when not measured."""
+    from livefix.check.profile import Threshold, measure
+
+    value, _ = measure(analysis, Threshold(name="k", metric=path, op="<=", limit=0.0))
+    return value
+
+
+def build_report(runs: list[ReceiverRun], *, profile: Any = None, site: str = "", notes: str = "",
+                 ref: tuple[float, float, float] | None = None, started: float | None = None,
+                 ended: float | None = None, complete: bool = True, incomplete_reason: str = "",
+                 command: str = "") -> dict[str, Any]:
+    """The whole document. `profile` is a livefix.check.profile.Profile or None (no verdict)."""
+    verdicts = [r.passed for r in runs]
+    if profile is None:
+        verdict = None
+    elif not complete:
+        verdict = "incomplete"
+    else:
+        verdict = "pass" if runs and all(v is True for v in verdicts) else "fail"
+    meta = {
+        "livefix_version": __version__, "generated": iso(time.time()), "command": command,
+        "site": site, "notes": notes,
+        "ref": None if ref is None else {"lat": ref[0], "lon": ref[1], "h": ref[2]},
+        "profile": None if profile is None else {
+            "name": profile.name, "title": profile.title, "origin": profile.origin,
+            "description": profile.description, "source": profile.source},
+        "started": iso(started), "ended": iso(ended),
+        "duration_s": None if started is None or ended is None else round(ended - started, 3),
+        "complete": complete, "incomplete_reason": incomplete_reason,
+    }
+    receivers = []
+    for r in runs:
+        receivers.append({
+            "name": r.name, "source": r.source, "recording": r.recording,
+            "recording_error": r.recording_error, "link": r.link, "link_detail": r.link_detail,
+            "verdict": ("incomplete" if not complete and r.verdict else r.verdict),
+            "results": None if r.results is None else [x.to_json() for x in r.results],
+            "ttff_cycles": r.ttff_cycles, "analysis": r.analysis, **r.extra})
+    return {"format": FORMAT, "meta": meta, "verdict": verdict, "receivers": receivers,
+            "comparison": comparison(runs), "cautions": list(CAUTIONS)}
+
+
+def comparison(runs: list[ReceiverRun]) -> dict[str, Any]:
+    """Side-by-side key figures, and per-threshold outcomes when a profile was applied."""
+    rows = []
+    for label, path, unit, digits in KEY_FIGURES:
+        vals = [figure(r.analysis, path) for r in runs]
+        rows.append({"label": label, "metric": path, "unit": unit, "digits": digits, "values": vals})
+    names: list[str] = []
+    for r in runs:
+        for x in r.results or []:
+            if x.name not in names:
+                names.append(x.name)
+    checks = []
+    for n in names:
+        cells = []
+        for r in runs:
+            hit = next((x for x in r.results or [] if x.name == n), None)
+            cells.append(None if hit is None else {"measured": hit.measured, "passed": hit.passed})
+        checks.append({"name": n, "values": cells})
+    return {"receivers": [r.name for r in runs], "rows": rows, "checks": checks}
+
+
+def _clean(value: Any) -> Any:
+    """JSON has no NaN/Infinity: write them as null so every parser reads the file."""
+    if isinstance(value, float):
+        return value if math.isfinite(value) else None
+    if isinstance(value, dict):
+        return {str(k): _clean(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_clean(v) for v in value]
+    if isinstance(value, bytes | bytearray):
+        return bytes(value).decode("utf-8", errors="backslashreplace")
+    return value
+
+
+def to_json(report: Any, indent: int | None = 1) -> str:
+    return json.dumps(_clean(report), indent=indent, ensure_ascii=True, default=str)
+
+
+def write_all(report: dict[str, Any], out_dir: str | Path, formats: tuple[str, ...] = ("json", "md", "html"),
+              junit: bool = False) -> list[Path]:
+    """Write the chosen documents into out_dir; returns the paths written."""
+    out = Path(out_dir)
+    out.mkdir(parents=True, exist_ok=True)
+    written = []
+    if "json" in formats:
+        written.append(_write(out / "report.json", to_json(report) + "\n"))
+    if "md" in formats:
+        from livefix.report.markdown import render_markdown
+
+        written.append(_write(out / "report.md", render_markdown(report)))
+    if "html" in formats:
+        from livefix.report.html import render_html
+
+        written.append(_write(out / "report.html", render_html(report)))
+    if junit:
+        from livefix.report.junit import render_junit
+
+        written.append(_write(out / "junit.xml", render_junit(report)))
+    return written
+
+
+def _write(path: Path, text: str) -> Path:
+    tmp = path.with_name(path.name + ".tmp")
+    tmp.write_text(text, encoding="utf-8")
+    tmp.replace(path)
+    return path
+
+
+def fmt_value(value: float | None, digits: int = 3, unit: str = "") -> str:
+    """A number for people: None -> 'not measured', trailing unit when given."""
+    if value is None:
+        return "not measured"
+    if float(value).is_integer() and abs(value) < 1e15:
+        text = f"{value:.0f}"
+    else:
+        text = f"{value:.{digits}f}" if digits else f"{value:.0f}"
+    return f"{text} {unit}".strip() if unit and unit not in ("count", "ratio") else text

@@ -1,0 +1,103 @@
+"""Markdown rendering of the report document. Every text from the stream or the user goes through
+md_text, so a TXT sentence holding markup shows as plain text."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from livefix.report.document import fmt_value
+from livefix.report.escape import md_text
+
+VERDICT_WORDS = {"pass": "PASS", "fail": "FAIL", "incomplete": "INCOMPLETE (run ended early)", None: "no verdict"}
+
+
+def _row(cells: list[str]) -> str:
+    return "| " + " | ".join(cells) + " |"
+
+
+def results_rows(results: list[dict[str, Any]]) -> list[list[str]]:
+    rows = []
+    for r in results:
+        measured = fmt_value(r["measured"], 4, r.get("unit", "")) if r["measured"] is not None else r["note"]
+        limit = f"{r['op']} {fmt_value(r['limit'], 4, r.get('unit', ''))}"
+        fix = f" ({r['fix']})" if r.get("fix") else ""
+        rows.append(["pass" if r["passed"] else "**FAIL**", r["name"], r["metric"] + fix, measured, limit,
+                     r.get("source", "")])
+    return rows
+
+
+def render_markdown(report: dict[str, Any]) -> str:
+    meta = report["meta"]
+    out = ["# livefix report", ""]
+    out.append(f"**Verdict: {VERDICT_WORDS.get(report.get('verdict'), md_text(report.get('verdict')))}**")
+    out.append("")
+    prof = meta.get("profile")
+    facts = [("Site", meta.get("site") or "-"), ("Notes", meta.get("notes") or "-"),
+             ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none (figures only)"),
+             ("Started", meta.get("started") or "-"), ("Ended", meta.get("ended") or "-"),
+             ("Duration", fmt_value(meta.get("duration_s"), 0, "s")),
+             ("Complete", "yes" if meta.get("complete") else f"no: {meta.get('incomplete_reason') or 'stopped'}"),
+             ("livefix", meta.get("livefix_version", ""))]
+    if meta.get("ref"):
+        ref = meta["ref"]
+        facts.append(("Reference", f"{ref['lat']:.9f}, {ref['lon']:.9f}, {ref['h']:.3f} m"))
+    out += [_row(["Item", "Value"]), _row(["---", "---"])]
+    out += [_row([md_text(k), md_text(v)]) for k, v in facts]
+    out.append("")
+    out += ["## Safety", ""] + [f"- {md_text(c)}" for c in report.get("cautions", [])] + [""]
+    comp = report.get("comparison") or {}
+    names = comp.get("receivers", [])
+    if len(names) > 1:
+        out += ["## Side by side", "", _row(["Figure"] + [md_text(n) for n in names]),
+                _row(["---"] * (len(names) + 1))]
+        for row in comp.get("rows", []):
+            out.append(_row([md_text(row["label"])] + [md_text(fmt_value(v, row["digits"], row["unit"]))
+                                                       for v in row["values"]]))
+        for chk in comp.get("checks", []):
+            cells = ["-" if c is None else ("pass" if c["passed"] else "**FAIL**") for c in chk["values"]]
+            out.append(_row([md_text(chk["name"])] + cells))
+        out.append("")
+    for rx in report.get("receivers", []):
+        out += receiver_section(rx)
+    return "\n".join(out) + "\n"
+
+
+def receiver_section(rx: dict[str, Any]) -> list[str]:
+    out = [f"## Receiver {md_text(rx['name'])}", "",
+           f"Source: {md_text(rx['source'])}  ", f"Recording: {md_text(rx.get('recording') or 'none')}  ",
+           f"Verdict: {VERDICT_WORDS.get(rx.get('verdict'), md_text(rx.get('verdict')))}", ""]
+    if rx.get("recording_error"):
+        out += [f"Recording error: {md_text(rx['recording_error'])}", ""]
+    if rx.get("results") is not None:
+        out += [_row(["Result", "Check", "Metric", "Measured", "Limit", "Source"]), _row(["---"] * 6)]
+        for cells in results_rows(rx["results"]):
+            op, _, limit = cells[4].partition(" ")  # the operator is one of ours; the unit may be the user's
+            out.append(_row([cells[0]] + [md_text(c) for c in cells[1:4]] + [f"{op} {md_text(limit)}",
+                                                                              md_text(cells[5])]))
+        out.append("")
+    cyc = rx.get("ttff_cycles")
+    if cyc:
+        out += [f"### TTFF cycles ({md_text(cyc.get('kind'))}, {cyc.get('n')} requested)", ""]
+        out += [f"min {fmt_value(cyc.get('min_s'), 1, 's')}, median {fmt_value(cyc.get('median_s'), 1, 's')}, "
+                f"p95 {fmt_value(cyc.get('p95_s'), 1, 's')}; {md_text(cyc.get('note', ''))}", ""]
+        out += [_row(["Cycle", "TTFF", "Basis"]), _row(["---"] * 3)]
+        for c in cyc.get("cycles", []):
+            out.append(_row([str(c["cycle"]), md_text(fmt_value(c.get("ttff_s"), 1, "s")), md_text(c.get("basis", ""))]))
+        out.append("")
+    events = (rx.get("analysis") or {}).get("events") or []
+    if events:
+        out += ["### Events (newest 30)", "", _row(["Time", "Kind", "Text"]), _row(["---"] * 3)]
+        for ev in events[-30:]:
+            out.append(_row([md_text(ev.get("time")), md_text(ev.get("kind")), md_text(ev.get("text"))]))
+        out.append("")
+    sky = (rx.get("analysis") or {}).get("sky") or {}
+    if sky.get("obstructed"):
+        out += ["### Obstructed sectors", ""]
+        out += [f"- {md_text(sector_text(s))}" for s in sky["obstructed"]]
+        out.append("")
+    return out
+
+
+def sector_text(s: dict[str, Any]) -> str:
+    return (f"azimuth {s.get('az_from', '?'):>} to {s.get('az_to', '?')} deg, "
+            f"blocked below {s.get('below_el', '?')} deg elevation")

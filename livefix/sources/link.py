@@ -1,0 +1,93 @@
+"""Shared pieces of the live sources: link-event stamping, backoff, stall watch, NMEA check.
+
+Kept sans-I/O so serial, TCP and stdin behave the same way and the rules live in one place.
+"""
+
+from __future__ import annotations
+
+import time
+
+from livefix.sources.base import Link, LinkEvent
+
+STALL_S = 2.0  # connected but silent this long -> STALLED (once)
+BACKOFF_FIRST_S = 0.5
+BACKOFF_CAP_S = 8.0
+CHUNK_MAX = 65536  # largest single read
+
+
+def event(state: str, detail: str = "") -> LinkEvent:
+    """A LinkEvent stamped with host clocks now."""
+    return LinkEvent(time.monotonic(), time.time(), state, detail)
+
+
+class Backoff:
+    """Exponential retry delays 0.5, 1, 2, 4, 8, 8 ... seconds; reset after good data."""
+
+    def __init__(self, first: float = BACKOFF_FIRST_S, cap: float = BACKOFF_CAP_S) -> None:
+        self.first, self.cap = first, cap
+        self._next = first
+
+    def next(self) -> float:
+        d = self._next
+        self._next = min(self.cap, self._next * 2.0)
+        return d
+
+    def reset(self) -> None:
+        self._next = self.first
+
+
+class StallWatch:
+    """Turns arrival times into STALLED/STREAMING transitions (one event per transition)."""
+
+    def __init__(self, limit_s: float = STALL_S) -> None:
+        self.limit_s = limit_s
+        self.last = time.monotonic()
+        self.stalled = False
+
+    def restart(self) -> None:
+        self.last = time.monotonic()
+        self.stalled = False
+
+    def on_bytes(self, now: float) -> LinkEvent | None:
+        """Bytes arrived at `now`; returns STREAMING if this ends a stall."""
+        self.last = now
+        if self.stalled:
+            self.stalled = False
+            return event(Link.STREAMING, "bytes flowing again")
+        return None
+
+    def on_idle(self, now: float) -> LinkEvent | None:
+        """A read timed out; returns STALLED once when the silence exceeds the limit."""
+        if not self.stalled and now - self.last > self.limit_s:
+            self.stalled = True
+            return event(Link.STALLED, f"no bytes for {now - self.last:.1f} s")
+        return None
+
+
+def nmea_ok(line: bytes) -> bool:
+    """True for a complete `$...*hh` or `!...*hh` line whose checksum is right (NMEA 0183 XOR)."""
+    line = line.strip(b"\r\n ")
+    if len(line) < 6 or line[:1] not in (b"$", b"!") or line[-3:-2] != b"*":
+        return False
+    cs = 0
+    for b in line[1:-3]:
+        cs ^= b
+    try:
+        return int(line[-2:], 16) == cs
+    except ValueError:
+        return False
+
+
+class NmeaCounter:
+    """Counts valid NMEA lines in a byte stream fed in arbitrary pieces (bounded tail)."""
+
+    def __init__(self) -> None:
+        self.good = 0
+        self._tail = b""
+
+    def feed(self, data: bytes) -> int:
+        buf = self._tail + data
+        *lines, self._tail = buf.split(b"\n")
+        self._tail = self._tail[-256:]
+        self.good += sum(1 for ln in lines if nmea_ok(ln))
+        return self.good

@@ -1,0 +1,302 @@
+"""StateModel: the one writer of receiver state. Decoded sentences in, completed Epochs out.
+
+Why epochs by time of fix: receivers send one burst of sentences per solution, but which sentence
+comes first differs between receivers. Grouping by the UTC time the sentences carry (untimed GSA,
+GSV and VTG join the open epoch) works for any order. Everything here is bounded: the open epoch,
+the GSV parts, the sky and the event queue all have caps, so memory does not grow with time.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+from typing import Any
+
+from livefix.decode import Decoded, Rejected
+from livefix.sources.base import Link, LinkEvent, Marker
+from livefix.state.clock import UtcClock, tod_seconds
+from livefix.state.epoch import SYSTEM_ID, Epoch, Event, SatObs
+from livefix.state.sky import GsvAssembler, Sky, talker_system, user_prn
+
+# Sentence types that carry the UTC time of fix (an epoch key).
+TIMED = frozenset({"GGA", "RMC", "GNS", "GST", "ZDA", "GLL"})
+# Position sources in order of preference.
+POSITION_FROM = ("GGA", "GNS", "RMC", "GLL")
+# RMC/GNS/GLL mode letter -> GGA quality (NMEA 0183: A, D, E, N verified; F, R, M, S, P from memory,
+# see shared/REFERENCES.md).
+MODE_QUALITY: dict[str, int] = {"A": 1, "D": 2, "P": 3, "R": 4, "F": 5, "E": 6, "M": 7, "S": 8, "N": 0}
+# GNS gives one mode letter per constellation: the best of them describes the solution.
+MODE_RANK: dict[str, int] = {m: i for i, m in enumerate("NSMEAPDFR")}
+KNOT_MPS = 1852.0 / 3600.0  # international nautical mile per hour
+UNTIMED_GAP_S = 2.0  # an epoch without any time closes when a sentence arrives this much later
+MAX_SENTENCES = 64  # per epoch, for the `sentences` list
+MAX_EVENTS = 1000  # undrained events kept
+GSV_EVENT_EVERY_S = 30.0  # rate limit of "gsv_incomplete" events
+
+
+# A marker note starting with this says livefix itself restarted the receiver at that moment; it is
+# recorded like any marker, so a replay sees the restart at the same place in the stream.
+RESTART_NOTE = "receiver restart"
+
+
+def _num(v: Any) -> float | None:
+    return float(v) if type(v) in (int, float) else None
+
+
+def _first(*vals: Any) -> float | None:
+    for v in vals:
+        n = _num(v)
+        if n is not None:
+            return n
+    return None
+
+
+class _Open:
+    """The epoch being assembled."""
+
+    __slots__ = ("mono", "wall", "tod", "timed_keys", "by_type", "used", "date", "sentences")
+
+    def __init__(self, mono: float, wall: float, tod: float | None) -> None:
+        self.mono, self.wall, self.tod = mono, wall, tod
+        self.timed_keys: set[str] = set()
+        self.by_type: dict[str, dict[str, Any]] = {}
+        self.used: set[tuple[str, int]] = set()
+        self.date: _dt.date | None = None
+        self.sentences: list[str] = []
+
+
+class StateModel:
+    def __init__(self, sky_timeout_s: float = 5.0) -> None:
+        self._open: _Open | None = None
+        self._clock = UtcClock()
+        self._gsv = GsvAssembler()
+        self._sky = Sky(sky_timeout_s)
+        self._used: frozenset[tuple[str, int]] = frozenset()
+        self._events: list[Event] = []
+        self._link: tuple[str, float, str] = (Link.CONNECTING, 0.0, "")
+        self._link_seen = False
+        self._mono = 0.0
+        self._wall = 0.0
+        self.last_epoch: Epoch | None = None
+        self.epochs = 0
+        self.late = 0  # timed sentences that arrived after their epoch had closed
+        self._closed_tod: float | None = None
+        self.rejected: dict[str, int] = {}
+        self.events_dropped = 0
+        self._gsv_unreported = 0
+        self._gsv_last_event: float | None = None
+
+    # -- stream items --------------------------------------------------------------------
+    @property
+    def link(self) -> tuple[str, float, str]:
+        """(state, since_mono, detail) of the connection."""
+        return self._link
+
+    def on_link(self, ev: LinkEvent) -> None:
+        self._mono, self._wall = ev.mono, ev.wall
+        state, since, detail = self._link
+        if self._link_seen and (ev.state, ev.detail) == (state, detail):
+            return  # a repeat says nothing new
+        if not self._link_seen or ev.state != state:
+            since = ev.mono
+        self._link, self._link_seen = (ev.state, since, ev.detail), True
+        text = f"link {ev.state}" + (f": {ev.detail}" if ev.detail else "")
+        self._emit(ev.mono, ev.wall, "link", text, data={"state": ev.state, "detail": ev.detail})
+
+    def on_marker(self, m: Marker) -> None:
+        self._mono, self._wall = m.mono, m.wall
+        self._emit(m.mono, m.wall, "marker", m.note, data={"note": m.note})
+        if m.note.startswith(RESTART_NOTE):  # livefix restarted the receiver itself (TTFF cycles)
+            self._emit(m.mono, m.wall, "receiver_restart", m.note, data={"note": m.note})
+
+    def on_chunk(self, mono: float, wall: float) -> None:
+        self._mono, self._wall = mono, wall
+
+    def on_rejected(self, r: Rejected, mono: float, wall: float) -> None:
+        self._mono, self._wall = mono, wall
+        self.rejected[r.reason] = self.rejected.get(r.reason, 0) + 1
+
+    def add_event(self, kind: str, text: str, mono: float, wall: float, data: dict | None = None) -> None:
+        """Events from outside the stream (the session's recording start/stop, notes)."""
+        self._emit(mono, wall, kind, text, data=data or {})
+
+    def on_sentence(self, msg: Decoded, mono: float, wall: float) -> list[Epoch]:
+        self._mono, self._wall = mono, wall
+        if msg.proprietary:
+            return []
+        mid, f = msg.msg_id, msg.fields
+        out: list[Epoch] = []
+        op = self._open
+        tod = tod_seconds(f.get("time")) if mid in TIMED else None
+        if op is not None:
+            if mid in TIMED:
+                key = msg.talker + mid
+                if tod is not None and op.tod is None and not op.timed_keys:
+                    op.tod = tod  # untimed lines came first: this epoch's time is now known
+                elif tod is not None and tod == self._closed_tod and op.tod not in (None, tod):
+                    self.late += 1  # belongs to the epoch already published: counted, not re-opened
+                    return out
+                elif key in op.timed_keys or (tod is not None and tod != op.tod):
+                    out.append(self._close())
+            elif op.tod is None and mono - op.mono > UNTIMED_GAP_S:
+                out.append(self._close())
+        if self._open is None:
+            self._open = _Open(mono, wall, tod)
+        self._add(self._open, msg, mono)
+        return out
+
+    def finish(self) -> list[Epoch]:
+        """End of stream: close the open epoch and report pending GSV breakage."""
+        out = [self._close()] if self._open is not None else []
+        self._gsv_event(self._mono, self._wall, force=True)
+        return out
+
+    def drain_events(self) -> list[Event]:
+        ev, self._events = self._events, []
+        return ev
+
+    def sky(self) -> tuple[SatObs, ...]:
+        """Satellites in view now (used flags from the last completed epoch)."""
+        self._sky.expire(self._mono)
+        return self._sky.obs(self._used)
+
+    @property
+    def gsv_incomplete(self) -> int:
+        return self._gsv.broken
+
+    # -- assembly ------------------------------------------------------------------------
+    def _add(self, op: _Open, msg: Decoded, mono: float) -> None:
+        mid, f = msg.msg_id, msg.fields
+        if len(op.sentences) < MAX_SENTENCES:
+            op.sentences.append(mid)
+        if mid in TIMED:
+            op.timed_keys.add(msg.talker + mid)
+        handler = _HANDLERS.get(mid)
+        if handler is not None:
+            handler(self, op, msg, mono)
+        elif mid not in op.by_type:
+            op.by_type[mid] = f
+
+    def _on_dated(self, op: _Open, msg: Decoded, mono: float) -> None:
+        f = msg.fields
+        op.by_type.setdefault(msg.msg_id, f)
+        d = f.get("date")
+        if isinstance(d, _dt.date):
+            op.date = d
+        elif all(type(f.get(k)) is int for k in ("day", "month", "year")):
+            try:
+                op.date = _dt.date(f["year"], f["month"], f["day"])
+            except (ValueError, OverflowError):
+                pass  # impossible date: the epoch keeps the carried-forward date
+
+    def _on_gsa(self, op: _Open, msg: Decoded, mono: float) -> None:
+        f = msg.fields
+        op.by_type.setdefault("GSA", f)
+        sid = f.get("systemId", "")
+        try:
+            system = SYSTEM_ID.get(int(sid)) if sid != "" else None
+        except (TypeError, ValueError):
+            system = None
+        if system is None:
+            system = talker_system(msg.talker)
+        for i in range(1, 13):
+            n = f.get(f"svid_{i:02d}")
+            if type(n) is int:
+                m = user_prn(system, n)
+                if m is not None:
+                    op.used.add(m)
+
+    def _on_gsv(self, op: _Open, msg: Decoded, mono: float) -> None:
+        group, sats, broken = self._gsv.add(msg.talker, msg.fields)
+        if sats is not None:
+            self._sky.replace(group, sats, mono)
+        if broken:
+            self._gsv_unreported += broken
+            self._gsv_event(mono, self._wall)
+
+    def _gsv_event(self, mono: float, wall: float, force: bool = False) -> None:
+        if not self._gsv_unreported:
+            return
+        last = self._gsv_last_event
+        if force or last is None or mono - last >= GSV_EVENT_EVERY_S:
+            n, self._gsv_unreported = self._gsv_unreported, 0
+            self._gsv_last_event = mono
+            self._emit(mono, wall, "gsv_incomplete", f"{n} incomplete GSV set(s) discarded",
+                       data={"count": n, "total": self._gsv.broken})
+
+    # -- closing -------------------------------------------------------------------------
+    def _close(self) -> Epoch:
+        op, self._open = self._open, None
+        assert op is not None
+        bt = op.by_type
+        gga, gns, rmc, gll = (bt.get(k) for k in POSITION_FROM)
+        gsa, gst, vtg = bt.get("GSA") or {}, bt.get("GST") or {}, bt.get("VTG") or {}
+        lat = lon = None
+        for src in (gga, gns, rmc, gll):
+            if src and _num(src.get("lat")) is not None and _num(src.get("lon")) is not None:
+                lat, lon = float(src["lat"]), float(src["lon"])
+                break
+        fix_src = gga or gns or rmc or gll or {}
+        alt_src = gga or gns or {}
+        alt, sep = _num(alt_src.get("alt")), _num(alt_src.get("sep"))
+        speed = _num((rmc or {}).get("spd"))
+        if speed is not None:
+            speed *= KNOT_MPS
+        elif _num(vtg.get("sogk")) is not None:
+            speed = vtg["sogk"] / 3.6
+        elif _num(vtg.get("sogn")) is not None:
+            speed = vtg["sogn"] * KNOT_MPS
+        nav = gsa.get("navMode")
+        utc = None
+        if op.tod is not None:
+            utc, notes = self._clock.resolve(op.tod, op.date, op.wall)
+            for kind, text, data in notes:
+                self._emit(op.mono, op.wall, kind, text, utc, data)
+        self._sky.expire(self._mono)
+        self._used = frozenset(op.used)
+        ep = Epoch(
+            mono=op.mono, wall=op.wall, utc=utc, quality=_quality(gga, fix_src), lat=lat, lon=lon,
+            h=alt + sep if alt is not None and sep is not None else None, alt_msl=alt, sep=sep,
+            num_sv=_int_or_none((gga or gns or {}).get("numSV")),
+            hdop=_first((gga or {}).get("HDOP"), (gns or {}).get("HDOP"), gsa.get("HDOP")),
+            pdop=_num(gsa.get("PDOP")), vdop=_num(gsa.get("VDOP")),
+            fix_dim=nav if type(nav) is int else None,
+            sigma_lat=_num(gst.get("stdLat")), sigma_lon=_num(gst.get("stdLong")),
+            sigma_alt=_num(gst.get("stdAlt")), sigma_rms=_num(gst.get("rangeRms")),
+            speed_mps=speed, course=_first((rmc or {}).get("cog"), vtg.get("cogt")),
+            diff_age=_first((gga or {}).get("diffAge"), (gns or {}).get("diffAge")),
+            sats=self._sky.obs(self._used), used_prns=tuple(sorted(self._used)),
+            sentences=tuple(op.sentences))
+        self.last_epoch, self._closed_tod = ep, op.tod
+        self.epochs += 1
+        return ep
+
+    def _emit(self, mono: float, wall: float, kind: str, text: str, utc: float | None = None,
+              data: dict | None = None) -> None:
+        if len(self._events) >= MAX_EVENTS:
+            del self._events[0]
+            self.events_dropped += 1
+        self._events.append(Event(mono, wall, kind, text, utc, data or {}))
+
+
+def _int_or_none(v: Any) -> int | None:
+    return v if type(v) is int else None
+
+
+def _quality(gga: dict | None, src: dict) -> int:
+    """GGA quality; else the best RMC/GNS/GLL mode letter; an RMC/GLL status 'V' means no fix."""
+    if gga is not None:
+        q = gga.get("quality")
+        return q if type(q) is int else 0
+    if src.get("status") == "V":
+        return 0
+    mode = src.get("posMode")
+    if isinstance(mode, str) and mode:
+        best = max(mode, key=lambda m: MODE_RANK.get(m, -1))
+        return MODE_QUALITY.get(best, 0)
+    return 1 if src.get("status") == "A" else 0
+
+
+_HANDLERS = {
+    "GSA": StateModel._on_gsa, "GSV": StateModel._on_gsv, "RMC": StateModel._on_dated,
+    "ZDA": StateModel._on_dated,
+}

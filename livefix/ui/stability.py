@@ -1,0 +1,75 @@
+"""Stability readout: where the antenna is, how still, how honest the receiver is about it."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from rich.text import Text
+from textual.widget import Widget
+
+from livefix.ui.fmt import DASH, asciify_text, dig, duration, num
+
+M = ".3f"
+
+
+def _enu(d: Any, fmt: str = M, unit: str = "") -> str:
+    if not isinstance(d, dict):
+        return DASH
+    return "  ".join(f"{k} {num(d.get(k), fmt, unit)}" for k in ("e", "n", "u"))
+
+
+def lines(a: dict[str, Any]) -> list[tuple[str, str]]:
+    """(label, value) rows from the analysis dict; every missing key is a dash."""
+    p = a.get("position") or {}
+    mean, ref = p.get("mean") or {}, p.get("ref") or {}
+    fix = a.get("fix") or {}
+    avail = fix.get("availability") or {}
+    has = sum(v for k, v in avail.items() if k != "none" and isinstance(v, (int, float)))
+    conv, conv_v = p.get("convergence_s"), p.get("convergence_v_s")
+    hon = p.get("honesty") or {}
+    dop_r, dop_c = dig(a, "dop", "current", "reported") or {}, dig(a, "dop", "current", "computed") or {}
+    rtk = fix.get("ttff_rtk_fixed_s")
+    return [
+        ("mean", f"{num(mean.get('lat'), '.7f')} {num(mean.get('lon'), '.7f')} {num(mean.get('h'), '.2f', ' m')}"),
+        ("reference", f"{num(ref.get('lat'), '.7f')} {num(ref.get('lon'), '.7f')} {num(ref.get('h'), '.2f')}"
+                      + (f" {ref.get('source')}" if ref.get("source") else "")),
+        ("offset m", _enu(p.get("offset_m"))),
+        ("CEP50/95", f"{num(p.get('cep50_m'), M)} / {num(p.get('cep95_m'), M)} m  2DRMS {num(p.get('drms2_m'), M)}"),
+        ("vert 95%", f"{num(p.get('v95_m'), M, ' m')}  converged "
+                     + ("not yet" if conv is None else f"after {duration(conv)}")
+                     + ("" if conv_v is None else f" (v {duration(conv_v)})")),
+        ("drift mm/h", _enu(p.get("drift_mm_per_h"), ".1f")),
+        ("TTFF", duration(fix.get("ttff_s")) + (f" RTK {duration(rtk)}" if rtk is not None else "")
+         + "  avail " + (f"{has * 100:.1f} %" if avail else DASH)
+         + (f" lost {fix.get('fix_losses')}" if fix.get("fix_losses") is not None else "")),
+        ("DOP rep/cmp", " ".join(f"{k[0].upper()} {num(dop_r.get(k), '.1f')}/{num(dop_c.get(k), '.1f')}"
+                                 for k in ("pdop", "hdop", "vdop"))),
+        ("sigma obs/rep", " ".join(f"{k} {num(hon.get(k + '_ratio'), '.2f')}" for k in ("lat", "lon", "h"))),
+    ]
+
+
+class Stability(Widget):
+    DEFAULT_CSS = "Stability { height: 1fr; text-wrap: nowrap; text-overflow: ellipsis; }"
+
+    def __init__(self, **kw) -> None:  # noqa: ANN003
+        super().__init__(**kw)
+        self.analysis: dict[str, Any] = {}
+
+    def show(self, analysis: dict[str, Any]) -> None:
+        if analysis is not self.analysis:
+            self.analysis = analysis
+            self.refresh()
+
+    def render(self) -> Text:
+        t = self._text()
+        return asciify_text(t) if getattr(self.app, "ascii_only", False) else t
+
+    def _text(self) -> Text:
+        st = self.app.palette.style  # type: ignore[attr-defined]
+        t = Text(no_wrap=True, overflow="ellipsis")
+        for i, (label, value) in enumerate(lines(self.analysis)):
+            if i:
+                t.append("\n")
+            t.append(f"{label:<13} ", st("dim"))
+            t.append(value, st("value"))
+        return t
