@@ -105,6 +105,7 @@ class Session:
         self._lock = threading.Lock()  # recorder swap + (record, enqueue) order
         self._recorder: Any = None
         self._rec_path: str | None = None
+        self._rec_error_noted: str | None = None  # last recording error put in the event list
         self._rec_error: str | None = None
         self._last_times: tuple[float, float] | None = None
         self._record_path = record_path
@@ -234,6 +235,9 @@ class Session:
         try:
             rec = self._recorder
             rec_error = (rec.error if rec is not None else None) or self._rec_error
+            if rec_error and rec_error != self._rec_error_noted:  # once per failure, in the timeline
+                self._rec_error_noted = rec_error
+                self.pipeline.note("recording", rec_error, {"action": "error", "error": rec_error})
             snap = self.pipeline.snapshot(recording=self._rec_path, recording_error=rec_error)
             snap = replace(snap, dropped_chunks=self.dropped_chunks, error=self.error)
         except Exception as exc:  # noqa: BLE001

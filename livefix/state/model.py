@@ -192,18 +192,14 @@ class StateModel:
         f = msg.fields
         op.by_type.setdefault("GSA", f)
         sid = f.get("systemId", "")
-        try:
-            system = SYSTEM_ID.get(int(sid)) if sid != "" else None
-        except (TypeError, ValueError):
-            system = None
-        if system is None:
-            system = talker_system(msg.talker)
-        for i in range(1, 13):
-            n = f.get(f"svid_{i:02d}")
-            if type(n) is int:
-                m = user_prn(system, n)
-                if m is not None:
-                    op.used.add(m)
+        key = (sid, msg.talker, tuple(map(f.get, _GSA_SVIDS)))  # everything the result depends on
+        hit = _GSA_CACHE.get(key)
+        if hit is None:
+            hit = _gsa_used(sid, msg.talker, key[2])
+            if len(_GSA_CACHE) >= 4096:
+                _GSA_CACHE.clear()
+            _GSA_CACHE[key] = hit
+        op.used.update(hit)
 
     def _on_gsv(self, op: _Open, msg: Decoded, mono: float) -> None:
         group, sats, broken = self._gsv.add(msg.talker, msg.fields)
@@ -276,6 +272,27 @@ class StateModel:
             del self._events[0]
             self.events_dropped += 1
         self._events.append(Event(mono, wall, kind, text, utc, data or {}))
+
+
+_GSA_SVIDS = tuple(f"svid_{i:02d}" for i in range(1, 13))
+# GSA lists repeat for long stretches: (systemId, talker, svids) -> used (system, prn) pairs.
+_GSA_CACHE: dict[tuple, tuple[tuple[str, int], ...]] = {}
+
+
+def _gsa_used(sid: Any, talker: str, svids: tuple) -> tuple[tuple[str, int], ...]:
+    try:
+        system = SYSTEM_ID.get(int(sid)) if sid != "" else None
+    except (TypeError, ValueError):
+        system = None
+    if system is None:
+        system = talker_system(talker)
+    out = []
+    for n in svids:
+        if type(n) is int:
+            m = user_prn(system, n)
+            if m is not None:
+                out.append(m)
+    return tuple(out)
 
 
 def _int_or_none(v: Any) -> int | None:

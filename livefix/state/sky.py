@@ -38,6 +38,26 @@ def user_prn(system: str | None, n: int) -> tuple[str, int] | None:
     return system, n
 
 
+_PRN_CACHE: dict[tuple[str | None, int], tuple[str, int] | None] = {}
+
+
+def _user_prn_cached(system: str | None, n: int) -> tuple[str, int] | None:
+    """user_prn through a bounded memo: GSV and GSA list the same few dozen numbers all day."""
+    k = (system, n)
+    try:
+        return _PRN_CACHE[k]
+    except KeyError:
+        pass
+    if len(_PRN_CACHE) >= 4096:
+        _PRN_CACHE.clear()
+    m = _PRN_CACHE[k] = user_prn(system, n)
+    return m
+
+
+# GSV field names of the four satellite blocks of one part, flat.
+_BLOCK_FLAT = tuple(f"{a}_{i:02d}" for i in range(1, 5) for a in ("svid", "elv", "az", "cno"))
+
+
 def talker_system(talker: str) -> str | None:
     return TALKER_SYSTEM.get(talker)
 
@@ -64,6 +84,7 @@ class GsvAssembler:
 
     def __init__(self) -> None:
         self._pending: dict[tuple[str, str], _Partial] = {}
+        self._last: dict[tuple[str, str], list[RawSat]] = {}  # last completed set per group
         self.broken = 0  # sets discarded (missing part, restart, numMsg change, stray parts)
         self.unmapped = 0  # listed PRNs outside every known range
 
@@ -88,7 +109,15 @@ class GsvAssembler:
         if not p.dead:
             self._add_sats(p, talker, f)
         if part == num:
-            return key, None if p.dead else p.sats, n
+            if p.dead:
+                return key, None, n
+            last = self._last.get(key)
+            if last == p.sats:  # the same set as last time: hand back the same list (cheap to compare)
+                return key, last, n
+            if len(self._last) >= self.MAX_GROUPS:
+                self._last.clear()
+            self._last[key] = p.sats
+            return key, p.sats, n
         p.next_msg = part + 1
         if len(self._pending) >= self.MAX_GROUPS:
             self.broken += int(not self._pending.pop(next(iter(self._pending))).dead)
@@ -96,17 +125,37 @@ class GsvAssembler:
         return key, None, n
 
     def _add_sats(self, p: _Partial, talker: str, f: dict) -> None:
-        system = talker_system(talker)
-        for i in range(1, 5):
-            svid = _int(f.get(f"svid_{i:02d}"))
-            if svid is None:
-                continue
-            m = user_prn(system, svid)
-            if m is None:
-                self.unmapped += 1
-                continue
-            p.sats.append((m[0], m[1], _int(f.get(f"elv_{i:02d}")), _int(f.get(f"az_{i:02d}")),
-                           _int(f.get(f"cno_{i:02d}"))))
+        system = TALKER_SYSTEM.get(talker)
+        key = (system, tuple(map(f.get, _BLOCK_FLAT)))  # everything the result depends on
+        hit = _PART_CACHE.get(key)
+        if hit is None:
+            hit = _part_sats(system, key[1])
+            if len(_PART_CACHE) >= 4096:
+                _PART_CACHE.clear()
+            _PART_CACHE[key] = hit
+        p.sats.extend(hit[0])
+        self.unmapped += hit[1]
+
+
+def _part_sats(system: str | None, vals: tuple) -> tuple[tuple[RawSat, ...], int]:
+    """Satellites of one GSV part from its 16 block values (svid, elv, az, cno x 4); + unmapped."""
+    out: list[RawSat] = []
+    unmapped = 0
+    for i in range(0, 16, 4):
+        svid, e, a, c = vals[i : i + 4]
+        if svid.__class__ is not int:
+            continue
+        m = _user_prn_cached(system, svid)
+        if m is None:
+            unmapped += 1
+            continue
+        out.append((m[0], m[1], e if e.__class__ is int else None, a if a.__class__ is int else None,
+                    c if c.__class__ is int else None))
+    return tuple(out), unmapped
+
+
+# Part contents repeat epoch after epoch; (system, block values) -> (satellites, unmapped).
+_PART_CACHE: dict[tuple, tuple[tuple[RawSat, ...], int]] = {}
 
 
 class Sky:
@@ -118,6 +167,8 @@ class Sky:
         self._groups: dict[tuple[str, str], tuple[float, list[RawSat]]] = {}
         self._version = 0
         self._cache: tuple[int, frozenset, tuple[SatObs, ...]] = (-1, frozenset(), ())
+        # (group/list signature, used, sorted rows, the lists themselves so their ids stay unique)
+        self._layout: tuple[tuple, frozenset, list[tuple[tuple, int]], list] | None = None
 
     def replace(self, group: tuple[str, str], sats: list[RawSat], mono: float) -> None:
         self._groups.pop(group, None)
@@ -135,15 +186,52 @@ class Sky:
             self._version += 1
 
     def obs(self, used: frozenset[tuple[str, int]]) -> tuple[SatObs, ...]:
-        """All satellites, sorted by system, number and signal; cached until something changes."""
+        """All satellites, sorted by system, number and signal; cached until something changes.
+
+        The merge and sort depend only on which set lists each group holds and on `used`; when a
+        receiver repeats its sets (the usual case) only the groups' times are new, so the sorted
+        layout is kept and just the SatObs are rebuilt.
+        """
         v, u, cached = self._cache
         if v == self._version and u == used:
             return cached
-        merged: dict[tuple[str, int, str], SatObs] = {}
-        for (_, signal), (mono, sats) in self._groups.items():
-            for system, prn, elev, azim, cn0 in sats:
-                merged[(system, prn, signal)] = SatObs(system, prn, signal, elev, azim, cn0,
-                                                       (system, prn) in used, mono)
-        out = tuple(merged[k] for k in sorted(merged, key=lambda k: (SYSTEM_ORDER.get(k[0], 9), k[1], k[2])))
+        groups = self._groups
+        sig = tuple([(g, id(sats)) for g, (_, sats) in groups.items()])
+        lay = self._layout
+        if lay is None or lay[0] != sig or lay[1] != used:
+            lay = self._layout = (sig, used, self._plan(used), [s for _, s in groups.values()])
+        monos = [m for m, _ in groups.values()]
+        mk = _make_obs
+        out = tuple([mk(r, monos[gi]) for r, gi in lay[2]])
         self._cache = (self._version, used, out)
         return out
+
+    def _plan(self, used: frozenset[tuple[str, int]]) -> list[tuple[tuple, int]]:
+        merged: dict[tuple[str, int, str], tuple[tuple, int]] = {}
+        for gi, ((_, signal), (_, sats)) in enumerate(self._groups.items()):
+            for system, prn, elev, azim, cn0 in sats:
+                merged[(system, prn, signal)] = ((system, prn, signal, elev, azim, cn0,
+                                                  (system, prn) in used), gi)
+        return [merged[k] for k in sorted(merged, key=lambda k: (SYSTEM_ORDER.get(k[0], 9), k[1], k[2]))]
+
+
+_new = object.__new__
+_SETTERS = tuple(SatObs.__dict__[n].__set__ for n in SatObs.__slots__[:7])
+_SET_MONO = SatObs.__dict__["last_seen_mono"].__set__
+if tuple(SatObs.__slots__) != ("system", "prn", "signal", "elev", "azim", "cn0", "used", "last_seen_mono"):
+    raise ImportError("SatObs fields changed: update livefix.state.sky._make_obs")
+
+
+def _make_obs(r: tuple, mono: float) -> SatObs:
+    """SatObs(*r, mono) without the frozen-dataclass __init__ (half the cost; same object)."""
+    o = _new(SatObs)
+    s0, s1, s2, s3, s4, s5, s6 = _SETTERS
+    s0(o, r[0])
+    s1(o, r[1])
+    s2(o, r[2])
+    s3(o, r[3])
+    s4(o, r[4])
+    s5(o, r[5])
+    s6(o, r[6])
+    _SET_MONO(o, mono)
+    return o

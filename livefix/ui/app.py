@@ -173,7 +173,8 @@ class MonitorApp(App[int]):
         if self.recording is None and snap.recording and not self._rec_touched:
             self.recording = snap.recording  # e.g. started with --record
         rec = self.recording
-        self.status_strip.show(snap, snap.mono - self._first_mono, self.verdict_text(snap.analysis), self._frozen, rec)
+        self.status_strip.show(snap, snap.mono - self._first_mono, self.verdict_text(snap.analysis), self._frozen,
+                               rec, self.paused, self.current_speed() if hasattr(self.feed, "set_speed") else None)
         stale = self._frozen is not None
         for pid, panel in self.panels.items():
             panel.set_class(stale, "-stale")
@@ -254,7 +255,7 @@ class MonitorApp(App[int]):
         if self._call("resume" if self.paused else "pause"):
             self.paused = not self.paused
             self.notify("paused — data keeps being read and recorded" if self.paused else "resumed")
-            self.sub_title = "PAUSED" if self.paused else ""
+            self._repaint()
 
     def current_speed(self) -> float | None:
         """Replay speed of the feed's source (0 = as fast as possible), None if it has none."""
@@ -273,6 +274,7 @@ class MonitorApp(App[int]):
             new = max(SPEED_RANGE[0], min(SPEED_RANGE[1], cur * factor))
         if self._call("set_speed", new or None):
             self.notify("replay speed: as fast as possible" if not new else f"replay speed ×{new:g}")
+            self._repaint()
 
     def action_seek(self, delta: float) -> None:
         if self._call("seek", float(delta)):

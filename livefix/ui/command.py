@@ -54,8 +54,11 @@ def parse_speed(text: str) -> float | None:
     return v
 
 
+PROG = {"name": "livefix watch"}  # "livefix replay" when entered through run_replay
+
+
 def _fail(msg: str) -> int:
-    print(f"livefix watch: {msg}", file=sys.stderr)
+    print(f"{PROG['name']}: {msg}", file=sys.stderr)
     return 2
 
 
@@ -63,7 +66,7 @@ def _color_setting() -> None:
     """An invalid TEXTUAL_COLOR_SYSTEM crashes Textual at start-up: drop it with a warning."""
     value = os.environ.get("TEXTUAL_COLOR_SYSTEM")
     if value is not None and value not in COLOR_SYSTEMS:
-        print(f"livefix watch: ignoring TEXTUAL_COLOR_SYSTEM={value!r} (use one of "
+        print(f"{PROG['name']}: ignoring TEXTUAL_COLOR_SYSTEM={value!r} (use one of "
               f"{', '.join(COLOR_SYSTEMS)})", file=sys.stderr)
         del os.environ["TEXTUAL_COLOR_SYSTEM"]
 
@@ -106,7 +109,7 @@ def run(args: argparse.Namespace) -> int:
     except ThemeError as exc:
         return _fail(str(exc))
     if warning:
-        print(f"livefix watch: {warning}", file=sys.stderr)
+        print(f"{PROG['name']}: {warning}", file=sys.stderr)
     try:
         ref = parse_ref(args.ref) if args.ref else None
         speed = parse_speed(args.speed)
@@ -155,6 +158,7 @@ def _run_app(source: Any, args: argparse.Namespace, palette: Any, ref: Any, verd
 def run_replay(args: argparse.Namespace) -> int:
     """`livefix replay FILE` with the UI: starts at real time unless a factor is given."""
     speed = str(getattr(args, "speed", "max"))
+    PROG["name"] = "livefix replay"
     ns = argparse.Namespace(source=args.file, theme=None, ref=None, record=None,
                             speed="1" if speed == "max" else speed, ascii=False, profile=None, baud="auto")
     return run(ns)

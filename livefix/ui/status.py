@@ -46,11 +46,13 @@ class StatusStrip(Widget):
         self.verdict: tuple[str, str] = ("no profile", "dim")
         self.frozen_s: float | None = None  # host seconds stale (None = fresh)
         self.recording: str | None = None
+        self.paused = False
+        self.speed: float | None = None  # replay speed, 0 = as fast as possible, None = live
 
     def show(self, snap: Snapshot, session_s: float, verdict: tuple[str, str], frozen_s: float | None,
-             recording: str | None) -> None:
+             recording: str | None, paused: bool = False, speed: float | None = None) -> None:
         self.snap, self.session_s, self.verdict = snap, session_s, verdict
-        self.frozen_s, self.recording = frozen_s, recording
+        self.frozen_s, self.recording, self.paused, self.speed = frozen_s, recording, paused, speed
         self.refresh()
 
     def render(self) -> Text:
@@ -71,6 +73,9 @@ class StatusStrip(Widget):
         if self.frozen_s is not None:  # host seconds in a stale state (quiet link or no new snapshots)
             extra = "NO UPDATES " if s.link not in ("stalled", "lost", "reconnecting") else ""
             t.append(f" {extra}{self.frozen_s:.0f} s — last data kept, marked stale ", st("stale"))
+        if self.paused:
+            t.append(" ")
+            t.append(" PAUSED ", st("warn"))
         rec = self.recording
         t.append(" ")
         if rec:
@@ -95,6 +100,9 @@ class StatusStrip(Widget):
         t.append(utc_text(utc), st("value"))
         t.append("  session ", st("dim"))
         t.append(clock(self.session_s), st("value"))
+        if self.speed is not None:
+            t.append("  speed ", st("dim"))
+            t.append("max" if self.speed <= 0 else f"×{self.speed:g}", st("value"))
         t.append("  verdict ", st("dim"))
         t.append(self.verdict[0], st(self.verdict[1]))
         t.append("\n ")

@@ -78,8 +78,15 @@ async def test_pause_speed_and_seek(size: tuple[int, int]) -> None:
     app, feed = make(step=3)
     async with app.run_test(size=size) as pilot:
         await pilot.press("space")
+        await pilot.pause()
+        assert "PAUSED" in screen_text(app)
         await pilot.press("space")
-        await pilot.press("plus", "plus", "minus")
+        await pilot.pause()
+        assert "PAUSED" not in screen_text(app)
+        await pilot.press("plus", "plus")
+        await pilot.pause()
+        assert "speed ×4" in screen_text(app)
+        await pilot.press("minus")
         await pilot.press("greater_than_sign", "less_than_sign")
         await pilot.pause()
     assert names(feed) == ["pause", "resume", "set_speed", "set_speed", "set_speed", "seek", "seek"]

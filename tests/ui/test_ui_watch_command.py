@@ -80,3 +80,13 @@ def test_invalid_colour_system_is_dropped_with_a_warning(capsys: pytest.CaptureF
     monkeypatch.setenv("TEXTUAL_COLOR_SYSTEM", "256")
     _color_setting()
     assert os.environ["TEXTUAL_COLOR_SYSTEM"] == "256"
+
+
+def test_replay_with_ui_reports_a_bad_file_as_replay(capsys: pytest.CaptureFixture[str]) -> None:
+    from livefix.ui import command
+
+    try:
+        rc, err = run(["replay", "/nonexistent/run.lfr"], capsys)
+    finally:
+        command.PROG["name"] = "livefix watch"
+    assert rc == 2 and err.startswith("livefix replay: ") and "no such file" in err
