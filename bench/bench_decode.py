@@ -106,7 +106,8 @@ def main(argv: list[str] | None = None) -> int:
     label = "livefix Decoder (no line cache)" if a.no_line_cache else "livefix Decoder"
     print(f"{label} : {ours:12,.0f} lines/s")
     print(f"ratio           : {ratio:8.1f}x")
-    print(f"target >= {TARGET:.0f}x: {'met' if ratio >= TARGET else 'not met'}")
+    name = "decode fast path vs pynmeagps parse" + (" (no line cache)" if a.no_line_cache else "")
+    print(f"RESULT | {name} | {ratio:.1f}x | >= {TARGET:.0f}x | {'met' if ratio >= TARGET else 'NOT met'}")
     return 0
 
 

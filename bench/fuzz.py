@@ -84,6 +84,8 @@ def one_input(rng: random.Random, base: list[str]) -> bytes:
     k = rng.random()
     if k < 0.15:
         return rng.randbytes(rng.randrange(1, 300))
+    if k < 0.16:  # over-long lines, terminated or not (framing cap)
+        return b"$GPTXT," + b"A" * rng.randrange(400, 5000) + rng.choice([b"", b"\r\n", b"*00\r\n"])
     if k < 0.35:
         return make(rng.choice(base))
     data = make(mutate(rng, rng.choice(base)))

@@ -139,13 +139,16 @@ class Decoder:
                     return self._decode(line)
                 # Checksum: fold the whole line; `want` already holds the XOR of '$', '*' and
                 # the two hex characters on top of the stated value, so no slice is needed.
+                # In-place folds: after `x ^= x >> k` the low k bits hold the XOR of the two
+                # halves and the bits above are never read again; <= 64 bytes need no 512 fold.
                 x = int.from_bytes(line, "little")
-                x = (x >> 512) ^ (x & _M512)
-                x = (x >> 256) ^ (x & _M256)
-                x = (x >> 128) ^ (x & _M128)
-                x = (x >> 64) ^ (x & _M64)
-                x = (x >> 32) ^ (x & _M32)
-                if _XOR16[(x >> 16) ^ (x & 65535)] != want:
+                if len(line) > 64:
+                    x ^= x >> 512
+                x ^= x >> 256
+                x ^= x >> 128
+                x ^= x >> 64
+                x ^= x >> 32
+                if _XOR16[(x ^ (x >> 16)) & 65535] != want:
                     return self._decode(line)
                 try:
                     fields = hit[3](s[7:-3].split(","))

@@ -146,5 +146,7 @@ def format_summary(s: dict[str, Any]) -> str:
     links = ", ".join(f"{k} {v}" for k, v in sorted(s.get("links", {}).items()))
     rows.append(f"link events: {links or 'none'}  markers: {s.get('markers', 0)}")
     rows.append(f"damage: {s['damage']}" if s.get("damage") else "damage: none")
-    return "\n".join(rows)
+    from livefix.report.escape import term_text
+
+    return term_text("\n".join(rows), keep_newlines=True)  # notes/file names may hold escape sequences
 

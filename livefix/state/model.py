@@ -13,7 +13,7 @@ from typing import Any
 
 from livefix.decode import Decoded, Rejected
 from livefix.sources.base import Link, LinkEvent, Marker
-from livefix.state.clock import UtcClock, tod_seconds
+from livefix.state.clock import UtcClock
 from livefix.state.epoch import SYSTEM_ID, Epoch, Event, SatObs
 from livefix.state.sky import GsvAssembler, Sky, talker_system, user_prn
 
@@ -123,12 +123,18 @@ class StateModel:
         self._mono, self._wall = mono, wall
         if msg.proprietary:
             return []
-        mid, f = msg.msg_id, msg.fields
+        mid = msg.msg_id
         out: list[Epoch] = []
         op = self._open
-        tod = tod_seconds(f.get("time")) if mid in TIMED else None
+        timed = mid in TIMED
+        if timed:
+            t = msg.fields.get("time")
+            tod = (t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
+                   if isinstance(t, _dt.time) else None)  # tod_seconds, inline (hot path)
+        else:
+            tod = None
         if op is not None:
-            if mid in TIMED:
+            if timed:
                 key = msg.talker + mid
                 if tod is not None and op.tod is None and not op.timed_keys:
                     op.tod = tod  # untimed lines came first: this epoch's time is now known
@@ -139,9 +145,18 @@ class StateModel:
                     out.append(self._close())
             elif op.tod is None and mono - op.mono > UNTIMED_GAP_S:
                 out.append(self._close())
-        if self._open is None:
-            self._open = _Open(mono, wall, tod)
-        self._add(self._open, msg, mono)
+        op = self._open
+        if op is None:
+            op = self._open = _Open(mono, wall, tod)
+        if len(op.sentences) < MAX_SENTENCES:  # _add, inline (hot path)
+            op.sentences.append(mid)
+        if timed:
+            op.timed_keys.add(msg.talker + mid)
+        handler = _HANDLERS.get(mid)
+        if handler is not None:
+            handler(self, op, msg, mono)
+        elif mid not in op.by_type:
+            op.by_type[mid] = msg.fields
         return out
 
     def finish(self) -> list[Epoch]:

@@ -7,6 +7,7 @@ from typing import Any
 from rich.text import Text
 from textual.widget import Widget
 
+from livefix.report.escape import term_text
 from livefix.ui.fmt import asciify_text
 
 # event kind -> role; anything not listed is plain
@@ -49,5 +50,5 @@ class EventList(Widget):
             t.append(f"{time[11:19] or '—':<8} ", st("dim"))
             kind = str(ev.get("kind", "?"))
             t.append(f"{kind:<14}", st(KIND_ROLE.get(kind, "value")))
-            t.append(f" {ev.get('text', '')}")
+            t.append(f" {term_text(ev.get('text', ''))}")  # stream text: no raw ESC/OSC
         return t

@@ -7,6 +7,7 @@ from rich.text import Text
 from textual.widget import Widget
 
 from livefix.pipeline import Snapshot
+from livefix.report.escape import term_text
 from livefix.ui.fmt import DASH, asciify_text, clock, dig, num, utc_text
 
 # link state -> (word, role); the word is the state, the role only adds emphasis
@@ -82,19 +83,19 @@ class StatusStrip(Widget):
             t.append(" ● REC ", st("rec"))
         else:
             t.append("not recording", st("dim"))
-        t.append(f"  {s.source or DASH}", st("value"))
+        t.append(f"  {term_text(s.source) or DASH}", st("value"))  # stream/CLI text: no raw ESC
         if s.link_detail:
-            t.append(f" ({s.link_detail})", st("dim"))
+            t.append(f" ({term_text(s.link_detail)})", st("dim"))
         rate = dig(s.analysis, "stream", "rate_hz")
         t.append("  ")
         t.append(num(rate, ".1f", " Hz"), st("value"))
         if rec:
-            t.append(f"  → {rec}", st("value"))
+            t.append(f"  → {term_text(rec)}", st("value"))
         err = getattr(s, "error", None)
         if err:
-            t.append(f"  SESSION ERROR: {err}", st("bad"))
+            t.append(f"  SESSION ERROR: {term_text(err)}", st("bad"))
         if s.recording_error:
-            t.append(f"  RECORDING FAILED: {s.recording_error}", st("bad"))
+            t.append(f"  RECORDING FAILED: {term_text(s.recording_error)}", st("bad"))
         t.append("\n ")
         utc = s.epoch.utc if s.epoch is not None and s.epoch.utc is not None else s.wall
         t.append(utc_text(utc), st("value"))

@@ -35,7 +35,7 @@ def cs(body: str) -> int:
 
 def line(body: str) -> bytes:
     """'GPGGA,...' -> b'$GPGGA,...*hh' (no terminator)."""
-    return f"${body}*{cs(body):02X}".encode("utf-8")
+    return f"${body}*{cs(body):02X}".encode()
 
 
 @functools.lru_cache(maxsize=4)

@@ -12,7 +12,7 @@ import threading
 import time
 from pathlib import Path
 
-from relkit import GGA, free_port, listener, line
+from relkit import GGA, free_port, line, listener
 
 from livefix.pipeline import Snapshot
 from livefix.record.reader import RecordingReader
