@@ -5,10 +5,9 @@ from __future__ import annotations
 from typing import Any
 
 from rich.text import Text
-from textual.widget import Widget
 
 from livefix.report.escape import term_text
-from livefix.ui.fmt import asciify_text
+from livefix.ui.panel import TextPanel
 
 # event kind -> role; anything not listed is plain
 KIND_ROLE: dict[str, str] = {
@@ -18,7 +17,7 @@ KIND_ROLE: dict[str, str] = {
 }
 
 
-class EventList(Widget):
+class EventList(TextPanel):
     DEFAULT_CSS = "EventList { height: 1fr; text-wrap: nowrap; text-overflow: ellipsis; }"
 
     def __init__(self, **kw) -> None:  # noqa: ANN003
@@ -30,10 +29,6 @@ class EventList(Widget):
         if events != self.events:
             self.events = events
             self.refresh()
-
-    def render(self) -> Text:
-        t = self._text()
-        return asciify_text(t) if getattr(self.app, "ascii_only", False) else t
 
     def _text(self) -> Text:
         st = self.app.palette.style  # type: ignore[attr-defined]

@@ -5,9 +5,9 @@ from __future__ import annotations
 from typing import Any
 
 from rich.text import Text
-from textual.widget import Widget
 
-from livefix.ui.fmt import DASH, asciify_text, dig, duration, num
+from livefix.ui.fmt import DASH, dig, duration, num
+from livefix.ui.panel import TextPanel
 
 M = ".3f"
 
@@ -48,7 +48,7 @@ def lines(a: dict[str, Any]) -> list[tuple[str, str]]:
     ]
 
 
-class Stability(Widget):
+class Stability(TextPanel):
     DEFAULT_CSS = "Stability { height: 1fr; text-wrap: nowrap; text-overflow: ellipsis; }"
 
     def __init__(self, **kw) -> None:  # noqa: ANN003
@@ -59,10 +59,6 @@ class Stability(Widget):
         if analysis is not self.analysis:
             self.analysis = analysis
             self.refresh()
-
-    def render(self) -> Text:
-        t = self._text()
-        return asciify_text(t) if getattr(self.app, "ascii_only", False) else t
 
     def _text(self) -> Text:
         st = self.app.palette.style  # type: ignore[attr-defined]

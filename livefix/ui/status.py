@@ -4,11 +4,11 @@ recording and the verdict. Always visible; states are words, colour only repeats
 from __future__ import annotations
 
 from rich.text import Text
-from textual.widget import Widget
 
 from livefix.pipeline import Snapshot
 from livefix.report.escape import term_text
-from livefix.ui.fmt import DASH, asciify_text, clock, dig, num, utc_text
+from livefix.ui.fmt import DASH, clock, dig, num, utc_text
+from livefix.ui.panel import TextPanel
 
 # link state -> (word, role); the word is the state, the role only adds emphasis
 LINK_LOOK: dict[str, tuple[str, str]] = {
@@ -37,7 +37,7 @@ def sat_counts(snap: Snapshot) -> dict[str, tuple[int, int, int]]:
     return {k: (v[0], v[1], v[2]) for k, v in sorted(out.items(), key=lambda kv: SYSTEM_ORDER.find(kv[0]))}
 
 
-class StatusStrip(Widget):
+class StatusStrip(TextPanel):
     DEFAULT_CSS = "StatusStrip { height: 3; text-wrap: nowrap; text-overflow: ellipsis; }"
 
     def __init__(self, **kw) -> None:  # noqa: ANN003
@@ -55,10 +55,6 @@ class StatusStrip(Widget):
         self.snap, self.session_s, self.verdict = snap, session_s, verdict
         self.frozen_s, self.recording, self.paused, self.speed = frozen_s, recording, paused, speed
         self.refresh()
-
-    def render(self) -> Text:
-        t = self._text()
-        return asciify_text(t) if getattr(self.app, "ascii_only", False) else t
 
     def _text(self) -> Text:
         pal = self.app.palette  # type: ignore[attr-defined]

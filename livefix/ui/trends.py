@@ -5,9 +5,9 @@ from __future__ import annotations
 from typing import Any
 
 from rich.text import Text
-from textual.widget import Widget
 
-from livefix.ui.fmt import asciify_text, num, sparkline
+from livefix.ui.fmt import num, sparkline
+from livefix.ui.panel import TextPanel
 
 SERIES: tuple[tuple[str, str, str, str], ...] = (  # key, label, number format, unit
     ("h_err_m", "horiz err", ".3f", " m"),
@@ -16,7 +16,7 @@ SERIES: tuple[tuple[str, str, str, str], ...] = (  # key, label, number format, 
 )
 
 
-class Trends(Widget):
+class Trends(TextPanel):
     DEFAULT_CSS = "Trends { height: 1fr; text-wrap: nowrap; text-overflow: ellipsis; }"
 
     def __init__(self, **kw) -> None:  # noqa: ANN003
@@ -28,10 +28,6 @@ class Trends(Widget):
         if trend != self.trend:
             self.trend = trend
             self.refresh()
-
-    def render(self) -> Text:
-        t = self._text()
-        return asciify_text(t) if getattr(self.app, "ascii_only", False) else t
 
     def _text(self) -> Text:
         st = self.app.palette.style  # type: ignore[attr-defined]
