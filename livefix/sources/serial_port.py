@@ -15,6 +15,8 @@ from livefix.sources.link import CHUNK_MAX, Backoff, NmeaCounter, StallWatch, ev
 
 AUTO_BAUDS = (4800, 9600, 19200, 38400, 57600, 115200, 230400, 460800, 921600)
 LOCK_LINES = 3  # valid-checksum lines needed to lock on a rate (common practice: "a few")
+RELOCK_S = 5.0  # auto mode: bytes but no valid line for this long = the receiver changed its rate
+RELOCK_BYTES = 512  # ... and at least this much arrived (a quiet port is a stall, not a rate change)
 
 
 class SerialSource:
@@ -23,7 +25,7 @@ class SerialSource:
     finite = False
 
     def __init__(self, path: str, baud: int | str = "auto", *, probe_s: float = 1.5,
-                 stall_s: float = 2.0, read_timeout: float = 0.1) -> None:
+                 stall_s: float = 2.0, read_timeout: float = 0.1, relock_s: float = RELOCK_S) -> None:
         if baud != "auto":
             try:
                 baud = int(baud)
@@ -36,6 +38,7 @@ class SerialSource:
         self.locked_baud: int | None = None if baud == "auto" else int(baud)
         self.name = f"serial:{path}"
         self.probe_s, self.stall_s, self.read_timeout = probe_s, stall_s, read_timeout
+        self.relock_s = relock_s
         self._port = None
         self._lock = threading.Lock()
         self._closed = threading.Event()
@@ -120,6 +123,7 @@ class SerialSource:
             else:
                 yield event(Link.STREAMING, f"{self.path} at {self.baud} baud")
             watch = StallWatch(self.stall_s)
+            counter, good_at, junk = NmeaCounter(), time.monotonic(), 0
             while not halt():
                 data = self._read(port)
                 now = time.monotonic()
@@ -129,6 +133,17 @@ class SerialSource:
                     if ev:
                         yield ev
                     yield Chunk(now, time.time(), data)
+                    if self.baud == "auto":
+                        before = counter.good
+                        if counter.feed(data) > before:
+                            good_at, junk = now, 0
+                        else:
+                            junk += len(data)
+                        if junk >= RELOCK_BYTES and now - good_at >= self.relock_s:
+                            yield event(Link.CONNECTING, f"no valid NMEA for {now - good_at:.0f} s at "
+                                        f"{self.locked_baud} baud; probing again")
+                            yield from self._autobaud(port, halt)
+                            counter, good_at, junk = NmeaCounter(), time.monotonic(), 0
                 else:
                     ev = watch.on_idle(now)
                     if ev:

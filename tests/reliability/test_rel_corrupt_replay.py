@@ -78,7 +78,7 @@ def test_report_json_of_a_truncated_recording_names_the_stop(original: Path, tmp
         assert "stopped at record" in (tmp_path / name).read_text()
 
 
-@pytest.mark.parametrize("content", [b"", b"\x00" * 10_000, b"LFR garbage\n" * 50])
+@pytest.mark.parametrize("content", [b"", b"\x00" * 10_000, b"LFR garbage\n" * 50], ids=["empty", "zeros", "text"])
 def test_empty_or_unreadable_files_end_cleanly(tmp_path: Path, content: bytes) -> None:
     p = tmp_path / "odd.lfr"
     p.write_bytes(content)

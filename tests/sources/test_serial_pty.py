@@ -180,3 +180,40 @@ def test_permission_denied_is_reported_and_retried(tmp_path) -> None:
     assert "Permission denied" in lines[0]
     assert "Permission denied" in lines[1]
     assert lines[2] == Link.RECONNECTING
+
+
+def test_autobaud_probes_again_when_the_receiver_changes_rate(tmp_path) -> None:
+    """Locked at one rate, then only undecodable bytes (what a rate change looks like on the wire):
+    the source says so and probes again instead of counting junk for ever."""
+    m, s = new_pty()
+    src = SerialSource(os.ttyname(s), baud="auto", probe_s=0.3, relock_s=0.6)
+    stop = threading.Event()
+    guard = threading.Timer(20, stop.set)
+    guard.start()
+    try:
+        gen = src.items(stop)
+        probes = 0
+        for item in gen:
+            if type(item) is LinkEvent and item.detail.startswith("probing"):
+                probes += 1
+                os.write(m, GGA + RMC + GGA)  # the first rate tried locks
+            if type(item) is LinkEvent and item.state == Link.STREAMING:
+                break
+        noise = bytes(range(128, 256)) * 8  # 1 KiB with no line of valid NMEA
+        end = time.monotonic() + 10
+        relocked = None
+        os.write(m, noise)
+        for item in gen:
+            if type(item) is LinkEvent and "probing again" in item.detail:
+                relocked = item
+                break
+            if type(item) is Chunk:
+                os.write(m, noise)  # keep the noise coming while the source reads
+            assert time.monotonic() < end
+        gen.close()
+    finally:
+        stop.set()
+        guard.cancel()
+        os.close(s)
+        os.close(m)
+    assert relocked is not None and relocked.state == Link.CONNECTING
