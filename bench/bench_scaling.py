@@ -19,7 +19,6 @@ import time
 from bench_replay import machine, sim_items
 
 from livefix.pipeline import Pipeline
-from livefix.sources.base import Chunk
 
 SAT_TARGET = 1.2  # 4-constellation cost per satellite-epoch / 1-constellation, at most
 LENGTH_TARGET = 1.2  # last-quarter cost per line / first quarter, at most

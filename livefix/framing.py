@@ -54,7 +54,7 @@ class Framer:
 
     def feed(self, data: bytes) -> list[bytes]:
         c = self.counters
-        if not self._buf and data[-2:] == b"\r\n" and self._state == _OUTSIDE:
+        if data.__class__ is bytes and not self._buf and data[-2:] == b"\r\n" and self._state == _OUTSIDE:
             lines = self._clean_block(data)
             if lines is not None:
                 c.bytes += len(data)

@@ -19,6 +19,7 @@ from typing import Any
 
 from livefix.geodesy import dop as geometry_dop
 from livefix.state.epoch import Epoch
+from livefix.state.sky import sats_token
 
 KEYS = ("gdop", "pdop", "hdop", "vdop", "tdop")
 REL_TOL = 0.20
@@ -94,13 +95,17 @@ class DopStats:
         self._calc_bins: list[tuple[LogHistogram, int]] = []
         self._rep_key: tuple | None = None
         self._sats: tuple | None = None
+        self._tok: object | None = None
         self._used: tuple | None = None
         self._geo: tuple = ()
         self._rep_bins: list[tuple[LogHistogram, int]] = []
 
     def on_epoch(self, ep: Epoch) -> None:
         if ep.sats is not self._sats or ep.used_prns != self._used:  # tuple reused while unchanged
-            self._sats, self._used, self._geo = ep.sats, ep.used_prns, used_geometry(ep)
+            tok = sats_token(ep.sats)  # or rebuilt with only new times: same geometry
+            if tok is None or tok is not self._tok or ep.used_prns != self._used:
+                self._geo = used_geometry(ep)
+            self._sats, self._used, self._tok = ep.sats, ep.used_prns, tok
         geo = self._geo
         if geo != self._cache_key:  # az/el are whole degrees and change slowly: cache
             self._cache_key = geo

@@ -24,6 +24,7 @@ from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
 from livefix.state.epoch import Epoch, Event, SatObs
+from livefix.state.sky import sats_token
 from livefix.timefmt import iso
 
 BASE_TAU_S = 30.0  # baseline time constant
@@ -74,11 +75,13 @@ class SignalStats:
         self.events_total = 0
         self._if_t = -math.inf
         self._last_sats: tuple | None = None
+        self._last_tok: object | None = None
 
     # -- per epoch --------------------------------------------------------------------------
     def on_epoch(self, ep: Epoch) -> None:
-        if ep.sats is not self._last_sats:  # the state model reuses the tuple while GSV is unchanged
-            self._last_sats = ep.sats
+        if ep.sats is not self._last_sats and (  # the state model reuses the tuple while unchanged,
+                (tok := sats_token(ep.sats)) is None or tok is not self._last_tok):  # or its layout
+            self._last_sats, self._last_tok = ep.sats, tok
             self.cur = [s for s in ep.sats if s.cn0 and s.cn0 > 0]
             vals = [s.cn0 for s in self.cur]
             if vals:

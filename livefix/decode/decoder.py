@@ -58,6 +58,11 @@ _STARHEX = {f"*{a}{b}": int(a + b, 16) ^ 0x24 ^ 0x2A ^ ord(a) ^ ord(b) for a in 
 _FAST_HDR = {f"${t}{m},": (t + m, t, m, FAST_DECODERS[m]) for t in _TALKERS for m in FAST_TYPES}
 # Types whose lines often repeat byte for byte (no time field); only these enter the line cache.
 _REPEATING = frozenset({"GSA", "VTG"})
+# GSV lines repeat too when a receiver refreshes its satellite list slower than its epoch rate
+# (common at 10-20 Hz), but not when C/N0 changes every epoch: they are cached only while a
+# refill of the cache shows enough hits (the cache is exact either way; this only saves time).
+_WITH_GSV = _REPEATING | {"GSV"}
+_MIN_HIT_SHARE = 0.25
 _new = object.__new__
 _set_talker, _set_id, _set_fields, _set_prop = (Decoded.talker.__set__, Decoded.msg_id.__set__,
                                                 Decoded.fields.__set__, Decoded.proprietary.__set__)
@@ -80,7 +85,9 @@ class Decoder:
         self._counters = DecodeCounters()
         self._pending: dict[str, int] = {}
         self._cache_max = max(0, line_cache)
-        self._lines: dict[bytes, tuple[str, str, str, dict[str, Any]]] = {}
+        self._lines: dict[bytes, tuple[str, str, str, dict[str, Any], int]] = {}  # .., is GSV
+        self._cacheable = _WITH_GSV
+        self._gsv_hits = self._gsv_ins = 0  # GSV cache hits / insertions since the last refill
 
     @property
     def counters(self) -> DecodeCounters:
@@ -127,6 +134,7 @@ class Decoder:
             hit = self._lines.get(line)
             if hit is not None:  # the very same line as before: same checksum, same fields
                 fields = dict(hit[3])
+                self._gsv_hits += hit[4]
             else:
                 # The common case inline: "$TTMMM,...*hh", ASCII, fast type, at most 128 bytes.
                 try:
@@ -156,11 +164,17 @@ class Decoder:
                     return self._no(MALFORMED, hit[2], line, "bad numeric field")
                 except Exception:  # unusual shape: let the reference decide
                     return self._fallback(line, hit[1], hit[2])
-                if self._cache_max and hit[2] in _REPEATING:
+                if self._cache_max and hit[2] in self._cacheable:
                     lines = self._lines
                     if len(lines) >= self._cache_max:
+                        # a full cache: keep GSV in it only if repeats paid off since the last refill
+                        self._cacheable = (_WITH_GSV if self._gsv_hits >= _MIN_HIT_SHARE * self._gsv_ins
+                                           else _REPEATING)
+                        self._gsv_hits = self._gsv_ins = 0
                         lines.clear()
-                    lines[line] = (hit[0], hit[1], hit[2], dict(fields))
+                    gsv = int(hit[2] == "GSV")
+                    self._gsv_ins += gsv
+                    lines[line] = (hit[0], hit[1], hit[2], dict(fields), gsv)
             hdr = hit[0]
             pend = self._pending
             pend[hdr] = pend.get(hdr, 0) + 1

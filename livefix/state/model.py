@@ -33,6 +33,9 @@ MAX_EVENTS = 1000  # undrained events kept
 GSV_EVENT_EVERY_S = 30.0  # rate limit of "gsv_incomplete" events
 
 
+TXT_PER_S = 2  # receiver text events per second of stream at most
+TXT_MAX = 120  # characters of receiver text kept in an event
+
 # A marker note starting with this says livefix itself restarted the receiver at that moment; it is
 # recorded like any marker, so a replay sees the restart at the same place in the stream.
 RESTART_NOTE = "receiver restart"
@@ -71,6 +74,7 @@ class StateModel:
         self._gsv = GsvAssembler()
         self._sky = Sky(sky_timeout_s)
         self._used: frozenset[tuple[str, int]] = frozenset()
+        self._used_sorted: tuple[tuple[str, int], ...] = ()
         self._events: list[Event] = []
         self._link: tuple[str, float, str] = (Link.CONNECTING, 0.0, "")
         self._link_seen = False
@@ -79,6 +83,8 @@ class StateModel:
         self.last_epoch: Epoch | None = None
         self.epochs = 0
         self.late = 0  # timed sentences that arrived after their epoch had closed
+        self.txt_suppressed = 0  # TXT sentences over the rate cap
+        self._txt_window, self._txt_in_window = float("-inf"), 0
         self._closed_tod: float | None = None
         self.rejected: dict[str, int] = {}
         self.events_dropped = 0
@@ -124,6 +130,9 @@ class StateModel:
         if msg.proprietary:
             return []
         mid = msg.msg_id
+        if mid == "TXT":  # receiver text (antenna status, boot banners): an event, rate-limited
+            self._on_txt(msg, mono, wall)
+            return []
         out: list[Epoch] = []
         op = self._open
         timed = mid in TIMED
@@ -148,7 +157,7 @@ class StateModel:
         op = self._open
         if op is None:
             op = self._open = _Open(mono, wall, tod)
-        if len(op.sentences) < MAX_SENTENCES:  # _add, inline (hot path)
+        if len(op.sentences) < MAX_SENTENCES:  # add the sentence to the open epoch
             op.sentences.append(mid)
         if timed:
             op.timed_keys.add(msg.talker + mid)
@@ -179,18 +188,6 @@ class StateModel:
         return self._gsv.broken
 
     # -- assembly ------------------------------------------------------------------------
-    def _add(self, op: _Open, msg: Decoded, mono: float) -> None:
-        mid, f = msg.msg_id, msg.fields
-        if len(op.sentences) < MAX_SENTENCES:
-            op.sentences.append(mid)
-        if mid in TIMED:
-            op.timed_keys.add(msg.talker + mid)
-        handler = _HANDLERS.get(mid)
-        if handler is not None:
-            handler(self, op, msg, mono)
-        elif mid not in op.by_type:
-            op.by_type[mid] = f
-
     def _on_dated(self, op: _Open, msg: Decoded, mono: float) -> None:
         f = msg.fields
         op.by_type.setdefault(msg.msg_id, f)
@@ -263,7 +260,9 @@ class StateModel:
             for kind, text, data in notes:
                 self._emit(op.mono, op.wall, kind, text, utc, data)
         self._sky.expire(self._mono)
-        self._used = frozenset(op.used)
+        used = frozenset(op.used)
+        if used != self._used:  # usually the same set epoch after epoch: keep its sorted tuple
+            self._used, self._used_sorted = used, tuple(sorted(used))
         ep = Epoch(
             mono=op.mono, wall=op.wall, utc=utc, quality=_quality(gga, fix_src), lat=lat, lon=lon,
             h=alt + sep if alt is not None and sep is not None else None, alt_msl=alt, sep=sep,
@@ -275,11 +274,23 @@ class StateModel:
             sigma_alt=_num(gst.get("stdAlt")), sigma_rms=_num(gst.get("rangeRms")),
             speed_mps=speed, course=_first((rmc or {}).get("cog"), vtg.get("cogt")),
             diff_age=_first((gga or {}).get("diffAge"), (gns or {}).get("diffAge")),
-            sats=self._sky.obs(self._used), used_prns=tuple(sorted(self._used)),
+            sats=self._sky.obs(self._used), used_prns=self._used_sorted,
             sentences=tuple(op.sentences))
         self.last_epoch, self._closed_tod = ep, op.tod
         self.epochs += 1
         return ep
+
+    def _on_txt(self, msg: Decoded, mono: float, wall: float) -> None:
+        """TXT text is data from the wire: capped in length and to TXT_PER_S events a second
+        (the rest counted in `txt_suppressed`); renderers escape it."""
+        if mono - self._txt_window >= 1.0:
+            self._txt_window, self._txt_in_window = mono, 0
+        self._txt_in_window += 1
+        if self._txt_in_window > TXT_PER_S:
+            self.txt_suppressed += 1
+            return
+        text = str(msg.fields.get("text", ""))[:TXT_MAX]
+        self._emit(mono, wall, "note", f"receiver text: {text}", data={"talker": msg.talker})
 
     def _emit(self, mono: float, wall: float, kind: str, text: str, utc: float | None = None,
               data: dict | None = None) -> None:

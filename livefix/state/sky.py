@@ -90,11 +90,12 @@ class GsvAssembler:
 
     def add(self, talker: str, f: dict) -> tuple[tuple[str, str], list[RawSat] | None, int]:
         """-> (group key, satellites of a completed set or None, number of sets broken now)."""
-        key = (talker, str(f.get("signalID", "")))
-        num, part = _int(f.get("numMsg")), _int(f.get("msgNum"))
+        sid = f.get("signalID", "")
+        key = (talker, sid if sid.__class__ is str else str(sid))
+        num, part = f.get("numMsg"), f.get("msgNum")
         p = self._pending.pop(key, None)
         live = p is not None and not p.dead
-        if num is None or part is None or num < 1 or not 1 <= part <= num:
+        if num.__class__ is not int or part.__class__ is not int or num < 1 or not 1 <= part <= num:
             self.broken += int(live) + 1  # unreadable part numbers: the part and its set are lost
             return key, None, int(live) + 1
         if part == 1:
@@ -201,9 +202,26 @@ class Sky:
         if lay is None or lay[0] != sig or lay[1] != used:
             lay = self._layout = (sig, used, self._plan(used), [s for _, s in groups.values()])
         monos = [m for m, _ in groups.values()]
-        mk = _make_obs
-        out = tuple([mk(r, monos[gi]) for r, gi in lay[2]])
+        s0, s1, s2, s3, s4, s5, s6 = _SETTERS
+        sm, new, cls = _SET_MONO, _new, SatObs
+        objs: list[SatObs] = []
+        append = objs.append
+        for (a, b, c, d, e, f, g), gi in lay[2]:  # SatObs(a..g, mono) without the dataclass __init__
+            o = new(cls)
+            s0(o, a)
+            s1(o, b)
+            s2(o, c)
+            s3(o, d)
+            s4(o, e)
+            s5(o, f)
+            s6(o, g)
+            sm(o, monos[gi])
+            append(o)
+        out = tuple(objs)
         self._cache = (self._version, used, out)
+        if len(_TOKENS) >= _TOKENS_MAX:
+            _TOKENS.clear()
+        _TOKENS[id(out)] = (out, lay)
         return out
 
     def _plan(self, used: frozenset[tuple[str, int]]) -> list[tuple[tuple, int]]:
@@ -215,23 +233,23 @@ class Sky:
         return [merged[k] for k in sorted(merged, key=lambda k: (SYSTEM_ORDER.get(k[0], 9), k[1], k[2]))]
 
 
+# Recent obs() tuples -> their layout. Tuples built from the same layout object differ only in
+# last_seen_mono, so per-epoch statistics that ignore it can skip recomputing (sats_token).
+_TOKENS: dict[int, tuple[tuple[SatObs, ...], object]] = {}
+_TOKENS_MAX = 64
+
+
+def sats_token(sats: tuple[SatObs, ...]) -> object | None:
+    """An object shared by every Epoch.sats tuple this process built from the same satellites
+    (same system, prn, signal, elev, azim, cn0 and used flag at every position; only
+    last_seen_mono may differ); None for tuples of unknown origin."""
+    e = _TOKENS.get(id(sats))
+    return e[1] if e is not None and e[0] is sats else None
+
+
 _new = object.__new__
 _SETTERS = tuple(SatObs.__dict__[n].__set__ for n in SatObs.__slots__[:7])
 _SET_MONO = SatObs.__dict__["last_seen_mono"].__set__
 if tuple(SatObs.__slots__) != ("system", "prn", "signal", "elev", "azim", "cn0", "used", "last_seen_mono"):
-    raise ImportError("SatObs fields changed: update livefix.state.sky._make_obs")
+    raise ImportError("SatObs fields changed: update livefix.state.sky.Sky.obs")
 
-
-def _make_obs(r: tuple, mono: float) -> SatObs:
-    """SatObs(*r, mono) without the frozen-dataclass __init__ (half the cost; same object)."""
-    o = _new(SatObs)
-    s0, s1, s2, s3, s4, s5, s6 = _SETTERS
-    s0(o, r[0])
-    s1(o, r[1])
-    s2(o, r[2])
-    s3(o, r[3])
-    s4(o, r[4])
-    s5(o, r[5])
-    s6(o, r[6])
-    _SET_MONO(o, mono)
-    return o
