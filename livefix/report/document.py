@@ -189,11 +189,23 @@ def _write(path: Path, text: str) -> Path:
 
 
 def fmt_value(value: float | None, digits: int = 3, unit: str = "") -> str:
-    """A number for people: None -> 'not measured', trailing unit when given."""
+    """A number for people: None -> 'not measured', no trailing zeros, trailing unit when given."""
     if value is None:
         return "not measured"
     if float(value).is_integer() and abs(value) < 1e15:
         text = f"{value:.0f}"
     else:
-        text = f"{value:.{digits}f}" if digits else f"{value:.0f}"
+        text = f"{value:.{digits}f}".rstrip("0").rstrip(".") if digits else f"{value:.0f}"
     return f"{text} {unit}".strip() if unit and unit not in ("count", "ratio") else text
+
+
+def data_span(report: dict[str, Any]) -> str:
+    """What stretch of receiver data each receiver's figures cover (a file replays in a second)."""
+    parts = []
+    for r in report.get("receivers", []):
+        st = (r.get("analysis") or {}).get("stream") or {}
+        dur, n, hz = st.get("duration_s"), st.get("epochs"), st.get("rate_hz")
+        if dur is None:
+            continue
+        parts.append(f"{r.get('name')}: {fmt_value(dur, 0, 's')} of data, {n} epochs at {fmt_value(hz, 1)} Hz")
+    return "; ".join(parts) or "-"

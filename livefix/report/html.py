@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from livefix.report.document import fmt_value
+from livefix.report.document import data_span, fmt_value
 from livefix.report.escape import html_text as h
 from livefix.report.markdown import VERDICT_WORDS, results_rows, sector_text
 
@@ -46,8 +46,9 @@ def render_html(report: dict[str, Any], with_plots: bool = True) -> str:
              "<h1>livefix report</h1>", f"<p id=\"verdict\">Verdict: {_verdict(report.get('verdict'))}</p>"]
     facts = [("Site", meta.get("site") or "-"), ("Notes", meta.get("notes") or "-"),
              ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none (figures only)"),
-             ("Started", meta.get("started") or "-"), ("Ended", meta.get("ended") or "-"),
-             ("Duration", fmt_value(meta.get("duration_s"), 0, "s")),
+             ("Run started", meta.get("started") or "-"), ("Run ended", meta.get("ended") or "-"),
+             ("Run time", fmt_value(meta.get("duration_s"), 0, "s")),
+             ("Data", data_span(report)),
              ("Complete", "yes" if meta.get("complete") else f"no: {meta.get('incomplete_reason') or 'stopped'}"),
              ("livefix version", meta.get("livefix_version", ""))]
     if meta.get("ref"):

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from livefix.report.document import fmt_value
+from livefix.report.document import data_span, fmt_value
 from livefix.report.escape import md_text
 
 VERDICT_WORDS = {"pass": "PASS", "fail": "FAIL", "incomplete": "INCOMPLETE (run ended early)", None: "no verdict"}
@@ -34,8 +34,9 @@ def render_markdown(report: dict[str, Any]) -> str:
     prof = meta.get("profile")
     facts = [("Site", meta.get("site") or "-"), ("Notes", meta.get("notes") or "-"),
              ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none (figures only)"),
-             ("Started", meta.get("started") or "-"), ("Ended", meta.get("ended") or "-"),
-             ("Duration", fmt_value(meta.get("duration_s"), 0, "s")),
+             ("Run started", meta.get("started") or "-"), ("Run ended", meta.get("ended") or "-"),
+             ("Run time", fmt_value(meta.get("duration_s"), 0, "s")),
+             ("Data", data_span(report)),
              ("Complete", "yes" if meta.get("complete") else f"no: {meta.get('incomplete_reason') or 'stopped'}"),
              ("livefix", meta.get("livefix_version", ""))]
     if meta.get("ref"):
