@@ -59,6 +59,9 @@ class _Recent:
         return math.sqrt(self.ve + self.vn)
 
 
+# Sentences that say whether there is a fix; an epoch without any of them tells nothing about it.
+_POSITION_SENTENCES = frozenset({"GGA", "RMC", "GNS", "GLL"})
+
 class FixStats:
     """Snapshot key "fix"; see livefix.analysis for the keys."""
 
@@ -76,6 +79,7 @@ class FixStats:
         self._start: dict[str, Any] | None = None
         self._restart_pending = False
         self._await_loss = False
+        self.no_position = 0  # epochs without any position sentence, left out of the fix figures
         self.outages: deque[dict[str, Any]] = deque(maxlen=LIST_CAP)
         self.outages_total = 0
         self.longest = 0.0
@@ -112,6 +116,13 @@ class FixStats:
     def on_epoch(self, ep: Epoch) -> None:
         t = self.clock.step(ep)
         abs_t = self.clock.abs_time
+        if ep.sentences and not _POSITION_SENTENCES.intersection(ep.sentences):
+            # nothing decodable said whether there was a fix (e.g. GGA and RMC lost to checksum
+            # errors): that is a stream fault, counted there, not a receiver outage
+            self.no_position += 1
+            if self._start is None:
+                self._new_start(t, abs_t, "stream")
+            return
         self.epochs += 1
         if self._prev_t is not None and t > self._prev_t:
             self._dts.append(t - self._prev_t)
@@ -207,7 +218,7 @@ class FixStats:
             "starts": [{k: v for k, v in d.items() if k != "t"} for d in self.starts],
             "starts_total": self.starts_total,
             "availability": {k: num(v / total, 5) for k, v in self.counts.items() if v},
-            "epochs": self.epochs,
+            "epochs": self.epochs, "no_position_epochs": self.no_position,
             "outages": list(self.outages), "outages_total": self.outages_total, "outage_now": ongoing,
             "longest_outage_s": num(self.longest, 3), "fix_losses": self.losses,
             "reacquisition_s": list(self.reacq),
