@@ -209,3 +209,20 @@ def data_span(report: dict[str, Any]) -> str:
             continue
         parts.append(f"{r.get('name')}: {fmt_value(dur, 0, 's')} of data, {n} epochs at {fmt_value(hz, 1)} Hz")
     return "; ".join(parts) or "-"
+
+
+def meta_facts(report: dict[str, Any]) -> list[tuple[str, str]]:
+    """The run's facts as (label, plain text) rows, shared by the Markdown and HTML documents."""
+    meta = report["meta"]
+    prof = meta.get("profile")
+    facts = [("Site", meta.get("site") or "-"), ("Notes", meta.get("notes") or "-"),
+             ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none (figures only)"),
+             ("Run started", meta.get("started") or "-"), ("Run ended", meta.get("ended") or "-"),
+             ("Run time", fmt_value(meta.get("duration_s"), 0, "s")),
+             ("Data", data_span(report)),
+             ("Complete", "yes" if meta.get("complete") else f"no: {meta.get('incomplete_reason') or 'stopped'}"),
+             ("livefix version", meta.get("livefix_version", ""))]
+    if meta.get("ref"):
+        r = meta["ref"]
+        facts.append(("Reference point", f"{r['lat']:.9f}, {r['lon']:.9f}, {r['h']:.3f} m (ellipsoidal)"))
+    return facts

@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from livefix.report.document import data_span, fmt_value
+from livefix.report.document import fmt_value, meta_facts
 from livefix.report.escape import html_text as h
 from livefix.report.markdown import VERDICT_WORDS, results_rows, sector_text
 
@@ -38,22 +38,12 @@ def _verdict(v: str | None) -> str:
 
 def render_html(report: dict[str, Any], with_plots: bool = True) -> str:
     meta = report["meta"]
-    prof = meta.get("profile")
     parts = ["<!DOCTYPE html>", '<html lang="en"><head><meta charset="utf-8">',
              "<meta http-equiv=\"Content-Security-Policy\" content=\"default-src 'none'; "
              "style-src 'unsafe-inline'; img-src data:\">",
              f"<title>livefix report {h(meta.get('site') or '')}</title><style>{_CSS}</style></head><body>",
              "<h1>livefix report</h1>", f"<p id=\"verdict\">Verdict: {_verdict(report.get('verdict'))}</p>"]
-    facts = [("Site", meta.get("site") or "-"), ("Notes", meta.get("notes") or "-"),
-             ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none (figures only)"),
-             ("Run started", meta.get("started") or "-"), ("Run ended", meta.get("ended") or "-"),
-             ("Run time", fmt_value(meta.get("duration_s"), 0, "s")),
-             ("Data", data_span(report)),
-             ("Complete", "yes" if meta.get("complete") else f"no: {meta.get('incomplete_reason') or 'stopped'}"),
-             ("livefix version", meta.get("livefix_version", ""))]
-    if meta.get("ref"):
-        r = meta["ref"]
-        facts.append(("Reference point", f"{r['lat']:.9f}, {r['lon']:.9f}, {r['h']:.3f} m (ellipsoidal)"))
+    facts = meta_facts(report)
     parts.append(_table(["Item", "Value"], [[h(k), h(v)] for k, v in facts]))
     parts.append('<section class="caution" id="safety"><h2>Safety</h2><ul>')
     parts += [f"<li>{h(c)}</li>" for c in report.get("cautions", [])]

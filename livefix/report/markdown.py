@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from livefix.report.document import data_span, fmt_value
+from livefix.report.document import fmt_value, meta_facts
 from livefix.report.escape import md_text
 
 VERDICT_WORDS = {"pass": "PASS", "fail": "FAIL", "incomplete": "INCOMPLETE (run ended early)", None: "no verdict"}
@@ -27,21 +27,10 @@ def results_rows(results: list[dict[str, Any]]) -> list[list[str]]:
 
 
 def render_markdown(report: dict[str, Any]) -> str:
-    meta = report["meta"]
     out = ["# livefix report", ""]
     out.append(f"**Verdict: {VERDICT_WORDS.get(report.get('verdict'), md_text(report.get('verdict')))}**")
     out.append("")
-    prof = meta.get("profile")
-    facts = [("Site", meta.get("site") or "-"), ("Notes", meta.get("notes") or "-"),
-             ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none (figures only)"),
-             ("Run started", meta.get("started") or "-"), ("Run ended", meta.get("ended") or "-"),
-             ("Run time", fmt_value(meta.get("duration_s"), 0, "s")),
-             ("Data", data_span(report)),
-             ("Complete", "yes" if meta.get("complete") else f"no: {meta.get('incomplete_reason') or 'stopped'}"),
-             ("livefix", meta.get("livefix_version", ""))]
-    if meta.get("ref"):
-        ref = meta["ref"]
-        facts.append(("Reference", f"{ref['lat']:.9f}, {ref['lon']:.9f}, {ref['h']:.3f} m"))
+    facts = meta_facts(report)
     out += [_row(["Item", "Value"]), _row(["---", "---"])]
     out += [_row([md_text(k), md_text(v)]) for k, v in facts]
     out.append("")
