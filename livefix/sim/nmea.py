@@ -35,26 +35,24 @@ def _time(d: _dt.datetime) -> str:
     return f"{d.hour:02d}{d.minute:02d}{d.second:02d}.{d.microsecond // 10000:02d}"
 
 
-def _lat(lat: float | None) -> str:
-    if lat is None:
+def _angle(v: float | None, deg_width: int, pos: str, neg: str) -> str:
+    """Degrees as NMEA dddmm.mmmmmm,H (6 decimal minutes, about 2 mm), zero-padded."""
+    if v is None:
         return ","
-    a = abs(lat)
+    a = abs(v)
     deg = int(a)
     mins = round((a - deg) * 60.0, 6)
     if mins >= 60.0:
         deg, mins = deg + 1, 0.0
-    return f"{deg:02d}{mins:09.6f},{'N' if lat >= 0 else 'S'}"
+    return f"{deg:0{deg_width}d}{mins:09.6f},{pos if v >= 0 else neg}"
+
+
+def _lat(lat: float | None) -> str:
+    return _angle(lat, 2, "N", "S")
 
 
 def _lon(lon: float | None) -> str:
-    if lon is None:
-        return ","
-    a = abs(lon)
-    deg = int(a)
-    mins = round((a - deg) * 60.0, 6)
-    if mins >= 60.0:
-        deg, mins = deg + 1, 0.0
-    return f"{deg:03d}{mins:09.6f},{'E' if lon >= 0 else 'W'}"
+    return _angle(lon, 3, "E", "W")
 
 
 def _f(v: float | None, nd: int) -> str:

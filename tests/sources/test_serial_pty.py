@@ -10,6 +10,7 @@ import time
 import tty
 
 import pytest
+from srckit import state_is, take
 
 from livefix.sources import SourceError, open_source
 from livefix.sources.base import Chunk, Link, LinkEvent
@@ -34,20 +35,8 @@ def link_to(path: str, target: str) -> None:
     os.replace(tmp, path)
 
 
-def take(gen, want, limit_s: float = 8.0, sink: list | None = None):  # noqa: ANN001
-    """Advance `gen` until want(item) is true; collect everything into sink."""
-    end = time.monotonic() + limit_s
-    for item in gen:
-        if sink is not None:
-            sink.append(item)
-        if want(item):
-            return item
-        assert time.monotonic() < end, f"timed out waiting; last item {item!r}"
-    raise AssertionError("source ended early")
 
 
-def state_is(state: str):  # noqa: ANN201
-    return lambda it: type(it) is LinkEvent and it.state == state
 
 
 def test_unplug_and_replug_through_pty(tmp_path) -> None:

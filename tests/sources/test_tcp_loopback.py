@@ -8,6 +8,7 @@ import threading
 import time
 
 import pytest
+from srckit import state_is, take
 
 from livefix.sources import SourceError, open_source
 from livefix.sources.base import Chunk, Link, LinkEvent
@@ -17,19 +18,8 @@ from livefix.sources.tcp import TcpSource, parse_tcp_spec
 GGA = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47\r\n"
 
 
-def take(gen, want, limit_s: float = 8.0, sink: list | None = None):  # noqa: ANN001
-    end = time.monotonic() + limit_s
-    for item in gen:
-        if sink is not None:
-            sink.append(item)
-        if want(item):
-            return item
-        assert time.monotonic() < end, f"timed out; last item {item!r}"
-    raise AssertionError("source ended early")
 
 
-def state_is(state: str):  # noqa: ANN201
-    return lambda it: type(it) is LinkEvent and it.state == state
 
 
 def listener() -> socket.socket:
