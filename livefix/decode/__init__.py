@@ -5,12 +5,16 @@ Contract shared by the fast path and the pynmeagps fallback:
   same line (same names, same Python types and values, "" for empty fields; e.g. GGA `time` is a
   datetime.time, `lat` a float in degrees, `quality` an int; GSV `svid_01`, `elv_01`, `az_01`,
   `cno_01` and `signalID` only when present), so either path can serve the state model.
+  Decoded values are immutable and `fields` is read-only: the decoder hands back the very same
+  Decoded object for a repeated line (that is what makes the line cache cheap, and lets later
+  stages memoise by identity); such fields are a read-only mapping. Copy `fields` to change it.
 
 `Decoder` keeps per-type counters (see `DecodeCounters`); it never raises on bad input.
 """
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -25,7 +29,7 @@ UNKNOWN = "unknown"  # a well-formed sentence of a type neither path knows
 class Decoded:
     talker: str  # "GP", "GN", ...; "P" for proprietary
     msg_id: str  # "GGA", ...; for proprietary the manufacturer+type text after "$P"
-    fields: dict[str, Any]  # pynmeagps attribute names -> values (see module doc)
+    fields: Mapping[str, Any]  # pynmeagps attribute names -> values (see module doc); read-only
     proprietary: bool = False
 
 

@@ -7,6 +7,7 @@ digits, either case) so that a refused line gets the same reason whichever path 
 
 from __future__ import annotations
 
+from types import MappingProxyType
 from typing import Any
 
 from pynmeagps import NMEAReader
@@ -64,6 +65,7 @@ _REPEATING = frozenset({"GSA", "VTG"})
 _WITH_GSV = _REPEATING | {"GSV"}
 _MIN_HIT_SHARE = 0.25
 _new = object.__new__
+_ReadOnly = MappingProxyType
 _set_talker, _set_id, _set_fields, _set_prop = (Decoded.talker.__set__, Decoded.msg_id.__set__,
                                                 Decoded.fields.__set__, Decoded.proprietary.__set__)
 
@@ -80,12 +82,13 @@ class Decoder:
         """line_cache: how many recent fast-path lines to remember (0 turns the cache off).
 
         Receivers repeat GSA and VTG sentences byte for byte for long stretches; a repeat then
-        costs one dict lookup and a copy of its fields.
+        costs one dict lookup and returns the same Decoded object (its fields are shared, which is
+        why Decoded.fields is read-only by contract), so later stages can memoise by identity.
         """
         self._counters = DecodeCounters()
         self._pending: dict[str, int] = {}
         self._cache_max = max(0, line_cache)
-        self._lines: dict[bytes, tuple[str, str, str, dict[str, Any], int]] = {}  # .., is GSV
+        self._lines: dict[bytes, tuple[str, Decoded, int]] = {}  # line -> (header, value, is GSV)
         self._cacheable = _WITH_GSV
         self._gsv_hits = self._gsv_ins = 0  # GSV cache hits / insertions since the last refill
 
@@ -132,9 +135,11 @@ class Decoder:
             if line.__class__ is not bytes:  # a bytearray or memoryview: decode a bytes copy
                 line = bytes(line)
             hit = self._lines.get(line)
-            if hit is not None:  # the very same line as before: same checksum, same fields
-                fields = dict(hit[3])
-                self._gsv_hits += hit[4]
+            if hit is not None:  # the very same line as before: the very same Decoded value
+                pend = self._pending
+                pend[hit[0]] = pend.get(hit[0], 0) + 1
+                self._gsv_hits += hit[2]
+                return hit[1]
             else:
                 # The common case inline: "$TTMMM,...*hh", ASCII, fast type, at most 128 bytes.
                 try:
@@ -174,7 +179,8 @@ class Decoder:
                         lines.clear()
                     gsv = int(hit[2] == "GSV")
                     self._gsv_ins += gsv
-                    lines[line] = (hit[0], hit[1], hit[2], dict(fields), gsv)
+                else:
+                    lines = None
             hdr = hit[0]
             pend = self._pending
             pend[hdr] = pend.get(hdr, 0) + 1
@@ -183,6 +189,9 @@ class Decoder:
             _set_id(d, hit[2])
             _set_fields(d, fields)
             _set_prop(d, False)
+            if lines is not None:  # shared from now on: read-only, so no consumer can change it
+                _set_fields(d, _ReadOnly(fields))
+                lines[line] = (hdr, d, gsv)
             return d
         except Exception as err:  # last line of defence: count it, keep going
             return self._no(MALFORMED, "?", bytes(line), f"internal: {type(err).__name__}")

@@ -9,6 +9,7 @@ the GSV parts, the sky and the event queue all have caps, so memory does not gro
 from __future__ import annotations
 
 import datetime as _dt
+from types import MappingProxyType
 from typing import Any
 
 from livefix.decode import Decoded, Rejected
@@ -130,10 +131,26 @@ class StateModel:
         if msg.proprietary:
             return []
         mid = msg.msg_id
+        if mid == "GSV":  # most lines of a burst: the untimed path below, inline
+            op, out = self._open, []
+            if op is not None and op.tod is None and mono - op.mono > UNTIMED_GAP_S:
+                out.append(self._close())
+                op = None
+            if op is None:
+                op = self._open = _Open(mono, wall, None)
+            if len(op.sentences) < MAX_SENTENCES:
+                op.sentences.append(mid)
+            group, sats, broken = self._gsv.add(msg.talker, msg.fields)
+            if sats is not None:
+                self._sky.replace(group, sats, mono)
+            if broken:
+                self._gsv_unreported += broken
+                self._gsv_event(mono, wall)
+            return out
         if mid == "TXT":  # receiver text (antenna status, boot banners): an event, rate-limited
             self._on_txt(msg, mono, wall)
             return []
-        out: list[Epoch] = []
+        out = []
         op = self._open
         timed = mid in TIMED
         if timed:
@@ -181,7 +198,7 @@ class StateModel:
     def sky(self) -> tuple[SatObs, ...]:
         """Satellites in view now (used flags from the last completed epoch)."""
         self._sky.expire(self._mono)
-        return self._sky.obs(self._used)
+        return self._sky.seen(self._used)
 
     @property
     def gsv_incomplete(self) -> int:
@@ -203,6 +220,10 @@ class StateModel:
     def _on_gsa(self, op: _Open, msg: Decoded, mono: float) -> None:
         f = msg.fields
         op.by_type.setdefault("GSA", f)
+        known = _GSA_BY_VALUE.get(id(f))
+        if known is not None and known[0] is f:  # the decoder's shared value of a repeated line
+            op.used.update(known[1])
+            return
         sid = f.get("systemId", "")
         key = (sid, msg.talker, tuple(map(f.get, _GSA_SVIDS)))  # everything the result depends on
         hit = _GSA_CACHE.get(key)
@@ -211,15 +232,11 @@ class StateModel:
             if len(_GSA_CACHE) >= 4096:
                 _GSA_CACHE.clear()
             _GSA_CACHE[key] = hit
+        if f.__class__ is MappingProxyType:  # read-only: same line, same talker, same result
+            if len(_GSA_BY_VALUE) >= 1024:
+                _GSA_BY_VALUE.clear()
+            _GSA_BY_VALUE[id(f)] = (f, hit)  # holding f keeps its id unique
         op.used.update(hit)
-
-    def _on_gsv(self, op: _Open, msg: Decoded, mono: float) -> None:
-        group, sats, broken = self._gsv.add(msg.talker, msg.fields)
-        if sats is not None:
-            self._sky.replace(group, sats, mono)
-        if broken:
-            self._gsv_unreported += broken
-            self._gsv_event(mono, self._wall)
 
     def _gsv_event(self, mono: float, wall: float, force: bool = False) -> None:
         if not self._gsv_unreported:
@@ -303,6 +320,7 @@ class StateModel:
 _GSA_SVIDS = tuple(f"svid_{i:02d}" for i in range(1, 13))
 # GSA lists repeat for long stretches: (systemId, talker, svids) -> used (system, prn) pairs.
 _GSA_CACHE: dict[tuple, tuple[tuple[str, int], ...]] = {}
+_GSA_BY_VALUE: dict[int, tuple[Any, tuple[tuple[str, int], ...]]] = {}  # id(read-only fields) -> used
 
 
 def _gsa_used(sid: Any, talker: str, svids: tuple) -> tuple[tuple[str, int], ...]:
@@ -340,6 +358,6 @@ def _quality(gga: dict | None, src: dict) -> int:
 
 
 _HANDLERS = {
-    "GSA": StateModel._on_gsa, "GSV": StateModel._on_gsv, "RMC": StateModel._on_dated,
+    "GSA": StateModel._on_gsa, "RMC": StateModel._on_dated,
     "ZDA": StateModel._on_dated,
 }

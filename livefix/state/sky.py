@@ -7,7 +7,9 @@ in order, so a lost line never mixes two epochs' satellites.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass, field
+from types import MappingProxyType
 
 from livefix.state.epoch import TALKER_SYSTEM, SatObs
 
@@ -88,11 +90,15 @@ class GsvAssembler:
         self.broken = 0  # sets discarded (missing part, restart, numMsg change, stray parts)
         self.unmapped = 0  # listed PRNs outside every known range
 
-    def add(self, talker: str, f: dict) -> tuple[tuple[str, str], list[RawSat] | None, int]:
+    def add(self, talker: str, f: Mapping) -> tuple[tuple[str, str], list[RawSat] | None, int]:
         """-> (group key, satellites of a completed set or None, number of sets broken now)."""
-        sid = f.get("signalID", "")
-        key = (talker, sid if sid.__class__ is str else str(sid))
-        num, part = f.get("numMsg"), f.get("msgNum")
+        known = _PART_BY_VALUE.get(id(f))
+        if known is not None and known[0] is f:  # the decoder's shared value of a repeated line
+            _, key, num, part, hit = known
+        else:
+            sid = f.get("signalID", "")
+            key = (talker, sid if sid.__class__ is str else str(sid))
+            num, part, hit = f.get("numMsg"), f.get("msgNum"), None
         p = self._pending.pop(key, None)
         live = p is not None and not p.dead
         if num.__class__ is not int or part.__class__ is not int or num < 1 or not 1 <= part <= num:
@@ -108,7 +114,10 @@ class GsvAssembler:
             n, p = int(live) + 1, _Partial(num, part, dead=True)  # stray part of an unseen set
         self.broken += n
         if not p.dead:
-            self._add_sats(p, talker, f)
+            if hit is None:
+                hit = self._part(talker, f, key, num, part)
+            p.sats.extend(hit[0])
+            self.unmapped += hit[1]
         if part == num:
             if p.dead:
                 return key, None, n
@@ -125,17 +134,23 @@ class GsvAssembler:
         self._pending[key] = p
         return key, None, n
 
-    def _add_sats(self, p: _Partial, talker: str, f: dict) -> None:
+    @staticmethod
+    def _part(talker: str, f: Mapping, key: tuple[str, str], num: int, part: int
+              ) -> tuple[tuple[RawSat, ...], int]:
+        """Satellites of one part (+ unmapped count), memoised by value."""
         system = TALKER_SYSTEM.get(talker)
-        key = (system, tuple(map(f.get, _BLOCK_FLAT)))  # everything the result depends on
-        hit = _PART_CACHE.get(key)
+        vkey = (system, tuple(map(f.get, _BLOCK_FLAT)))  # everything the result depends on
+        hit = _PART_CACHE.get(vkey)
         if hit is None:
-            hit = _part_sats(system, key[1])
+            hit = _part_sats(system, vkey[1])
             if len(_PART_CACHE) >= 4096:
                 _PART_CACHE.clear()
-            _PART_CACHE[key] = hit
-        p.sats.extend(hit[0])
-        self.unmapped += hit[1]
+            _PART_CACHE[vkey] = hit
+        if f.__class__ is MappingProxyType:  # read-only, so its results never change
+            if len(_PART_BY_VALUE) >= 4096:
+                _PART_BY_VALUE.clear()
+            _PART_BY_VALUE[id(f)] = (f, key, num, part, hit)  # holding f keeps its id unique
+        return hit
 
 
 def _part_sats(system: str | None, vals: tuple) -> tuple[tuple[RawSat, ...], int]:
@@ -157,84 +172,112 @@ def _part_sats(system: str | None, vals: tuple) -> tuple[tuple[RawSat, ...], int
 
 # Part contents repeat epoch after epoch; (system, block values) -> (satellites, unmapped).
 _PART_CACHE: dict[tuple, tuple[tuple[RawSat, ...], int]] = {}
+# id of a read-only field mapping (a repeated line, so the same talker too) -> (mapping, group key,
+# numMsg, msgNum, its satellites and unmapped count).
+_PART_BY_VALUE: dict[int, tuple] = {}
 
 
 class Sky:
-    """Latest complete set per group; satellites unseen for `timeout_s` host seconds drop out."""
+    """Latest complete set per group; satellites unseen for `timeout_s` host seconds drop out.
+
+    Why two views: an epoch needs the satellites and their values, and at 10-20 Hz those are
+    usually the very same as the epoch before (receivers refresh their lists about once a second),
+    so `obs()` hands back the same tuple object until something changes and per-epoch statistics
+    skip their work by identity. How recently each satellite was listed changes every epoch; only
+    `seen()` (snapshots, at display rate) builds objects carrying that time.
+    """
 
     def __init__(self, timeout_s: float = 5.0, max_groups: int = 64) -> None:
         self.timeout_s = timeout_s
         self.max_groups = max_groups
-        self._groups: dict[tuple[str, str], tuple[float, list[RawSat]]] = {}
-        self._version = 0
-        self._cache: tuple[int, frozenset, tuple[SatObs, ...]] = (-1, frozenset(), ())
+        self._groups: dict[tuple[str, str], list[RawSat]] = {}  # in order of last update
+        self._mono: dict[tuple[str, str], float] = {}  # host time each group was last listed
         # (group/list signature, used, sorted rows, the lists themselves so their ids stay unique)
         self._layout: tuple[tuple, frozenset, list[tuple[tuple, int]], list] | None = None
+        self._lean: tuple[SatObs, ...] = ()  # obs() of the current layout
+        self._seen: tuple[tuple, tuple, tuple[SatObs, ...]] | None = None  # layout, monos, seen()
 
     def replace(self, group: tuple[str, str], sats: list[RawSat], mono: float) -> None:
-        self._groups.pop(group, None)
-        if len(self._groups) >= self.max_groups:
-            self._groups.pop(next(iter(self._groups)))
-        self._groups[group] = (mono, sats)
-        self._version += 1
+        groups = self._groups
+        if groups.pop(group, None) is None and len(groups) >= self.max_groups:
+            old = next(iter(groups))
+            del groups[old], self._mono[old]
+        self._mono.pop(group, None)  # both dicts keep the same order: seen() indexes monos by group
+        groups[group] = sats
+        self._mono[group] = mono
 
     def expire(self, now_mono: float) -> None:
         limit = now_mono - self.timeout_s
-        old = [g for g, (m, _) in self._groups.items() if m < limit]
-        for g in old:
-            del self._groups[g]
-        if old:
-            self._version += 1
+        for g in [g for g, m in self._mono.items() if m < limit]:
+            del self._groups[g], self._mono[g]
+
+    def _signature(self) -> tuple:
+        return tuple([(g, id(sats)) for g, sats in self._groups.items()])
 
     def obs(self, used: frozenset[tuple[str, int]]) -> tuple[SatObs, ...]:
-        """All satellites, sorted by system, number and signal; cached until something changes.
+        """All satellites, sorted by system, number and signal; the same tuple object while nothing
+        but the listing times changed. last_seen_mono is 0.0 here (see `seen`).
 
-        The merge and sort depend only on which set lists each group holds and on `used`; when a
-        receiver repeats its sets (the usual case) only the groups' times are new, so the sorted
-        layout is kept and just the SatObs are rebuilt.
+        The merge and sort depend only on which set lists each group holds (and their order) and
+        on `used`; a repeated set is handed back by the assembler as the same list object.
         """
-        v, u, cached = self._cache
-        if v == self._version and u == used:
-            return cached
-        groups = self._groups
-        sig = tuple([(g, id(sats)) for g, (_, sats) in groups.items()])
+        sig = self._signature()
         lay = self._layout
         if lay is None or lay[0] != sig or lay[1] != used:
-            lay = self._layout = (sig, used, self._plan(used), [s for _, s in groups.values()])
-        monos = [m for m, _ in groups.values()]
-        s0, s1, s2, s3, s4, s5, s6 = _SETTERS
-        sm, new, cls = _SET_MONO, _new, SatObs
-        objs: list[SatObs] = []
-        append = objs.append
-        for (a, b, c, d, e, f, g), gi in lay[2]:  # SatObs(a..g, mono) without the dataclass __init__
-            o = new(cls)
-            s0(o, a)
-            s1(o, b)
-            s2(o, c)
-            s3(o, d)
-            s4(o, e)
-            s5(o, f)
-            s6(o, g)
-            sm(o, monos[gi])
-            append(o)
-        out = tuple(objs)
-        self._cache = (self._version, used, out)
-        if len(_TOKENS) >= _TOKENS_MAX:
-            _TOKENS.clear()
-        _TOKENS[id(out)] = (out, lay)
-        return out
+            lay = self._layout = (sig, used, self._plan(used), list(self._groups.values()))
+            self._lean = out = tuple(_build(lay[2], None))
+            if len(_TOKENS) >= _TOKENS_MAX:
+                _TOKENS.clear()
+            _TOKENS[id(out)] = (out, lay)
+        return self._lean
+
+    def seen(self, used: frozenset[tuple[str, int]]) -> tuple[SatObs, ...]:
+        """Like obs(), with last_seen_mono set to when each satellite's set was last listed.
+
+        Called at display rate, possibly in the middle of an epoch's sets: it keeps its own
+        layout so that it never disturbs the one obs() hands to epochs."""
+        sig = self._signature()
+        lay = self._layout
+        if lay is None or lay[0] != sig or lay[1] != used:
+            cached = self._seen
+            lay = cached[0] if cached is not None and cached[0][0] == sig and cached[0][1] == used else (
+                sig, used, self._plan(used), list(self._groups.values()))
+        monos = tuple(self._mono.values())
+        cached = self._seen
+        if cached is None or cached[0] is not lay or cached[1] != monos:
+            cached = self._seen = (lay, monos, tuple(_build(lay[2], monos)))
+        return cached[2]
 
     def _plan(self, used: frozenset[tuple[str, int]]) -> list[tuple[tuple, int]]:
         merged: dict[tuple[str, int, str], tuple[tuple, int]] = {}
-        for gi, ((_, signal), (_, sats)) in enumerate(self._groups.items()):
+        for gi, ((_, signal), sats) in enumerate(self._groups.items()):
             for system, prn, elev, azim, cn0 in sats:
                 merged[(system, prn, signal)] = ((system, prn, signal, elev, azim, cn0,
                                                   (system, prn) in used), gi)
         return [merged[k] for k in sorted(merged, key=lambda k: (SYSTEM_ORDER.get(k[0], 9), k[1], k[2]))]
 
 
-# Recent obs() tuples -> their layout. Tuples built from the same layout object differ only in
-# last_seen_mono, so per-epoch statistics that ignore it can skip recomputing (sats_token).
+def _build(rows: list[tuple[tuple, int]], monos: tuple[float, ...] | None) -> list[SatObs]:
+    """SatObs for layout rows, without the dataclass __init__ (hot when the sky changes)."""
+    s0, s1, s2, s3, s4, s5, s6 = _SETTERS
+    sm, new, cls = _SET_MONO, _new, SatObs
+    objs: list[SatObs] = []
+    append = objs.append
+    for (a, b, c, d, e, f, g), gi in rows:
+        o = new(cls)
+        s0(o, a)
+        s1(o, b)
+        s2(o, c)
+        s3(o, d)
+        s4(o, e)
+        s5(o, f)
+        s6(o, g)
+        sm(o, monos[gi] if monos is not None else 0.0)
+        append(o)
+    return objs
+
+
+# Recent obs() tuples -> their layout: per-epoch statistics compare tokens to skip recomputing.
 _TOKENS: dict[int, tuple[tuple[SatObs, ...], object]] = {}
 _TOKENS_MAX = 64
 

