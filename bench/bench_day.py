@@ -100,6 +100,33 @@ def time_command(path: Path, jobs: str | None) -> tuple[float, float, int, str]:
     return wall, max(peak, before) / 1024.0, r.returncode, err
 
 
+def cost_by_part(path: Path, parts: int = 6) -> list[float]:
+    """CPU us per line of the in-process pipeline in each of `parts` equal stretches of the file
+    (one Pipeline for the whole day: does the cost per line grow with session length?)."""
+    from livefix.pipeline import Pipeline
+    from livefix.record.reader import RecordingReader
+    from livefix.sources.base import Chunk
+
+    p = Pipeline(source=str(path))
+    size = os.path.getsize(path)
+    items = RecordingReader(path).items()
+    out: list[float] = []
+    n0, t0, nbytes = 0, time.thread_time(), 0
+    for it in items:
+        p.feed(it)
+        if type(it) is Chunk:
+            nbytes += len(it.data) + 24  # about one record header each
+            if nbytes >= size * (len(out) + 1) / parts:
+                t1, n1 = time.thread_time(), p.framer.counters.lines
+                out.append((t1 - t0) / max(1, n1 - n0) * 1e6)
+                n0, t0 = n1, t1
+    p.finish()
+    if len(out) < parts:
+        t1, n1 = time.thread_time(), p.framer.counters.lines
+        out.append((t1 - t0) / max(1, n1 - n0) * 1e6)
+    return out
+
+
 def accepts_jobs() -> bool:
     r = subprocess.run([sys.executable, "-m", "livefix", "report", "--help"], capture_output=True,
                        text=True, check=False)
@@ -112,6 +139,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--hours", type=float, default=24.0)
     ap.add_argument("--rate", type=int, default=10)
     ap.add_argument("--jobs", default="1,2", help="--jobs values to time (default 1,2)")
+    ap.add_argument("--no-flat", action="store_true", help="skip the cost-per-line-by-part run")
     a = ap.parse_args(argv)
     print(f"machine: {machine()}")
     d = Path(a.dir)
@@ -130,6 +158,12 @@ def main(argv: list[str] | None = None) -> int:
         print(f"report --json {label}: {wall:.1f} s wall, peak RSS {peak:.0f} MB, exit {rc} {err}")
         print(f"RESULT | {a.hours:g} h at {a.rate} Hz, whole report command ({label}) | {wall:.0f} s | "
               f"< {TARGET_S:.0f} s | {'met' if rc == 0 and wall < TARGET_S else 'NOT met'}")
+    if not a.no_flat:
+        parts = cost_by_part(path)
+        ratio = parts[-1] / parts[0]
+        print("cost per line by sixth of the file (CPU us): " + " / ".join(f"{x:.2f}" for x in parts))
+        print(f"RESULT | cost per line, last vs first sixth of {a.hours:g} h | {ratio:.2f}x | <= 1.2x | "
+              f"{'met' if ratio <= 1.2 else 'NOT met'}")
     return 0
 
 
