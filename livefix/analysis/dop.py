@@ -65,9 +65,13 @@ def used_geometry(ep: Epoch) -> tuple[tuple[float, float, str], ...]:
     listed = set(ep.used_prns)
     seen: dict[tuple[str, int], tuple[float, float, str]] = {}
     for s in ep.sats:
-        if (s.used or (s.system, s.prn) in listed) and s.elev is not None and s.azim is not None:
-            seen.setdefault((s.system, s.prn), (float(s.azim), float(s.elev), s.system))
-    return tuple(seen[k] for k in sorted(seen))
+        az, el = s.azim, s.elev
+        if el is None or az is None:
+            continue
+        k = (s.system, s.prn)
+        if k not in seen and (s.used or k in listed):  # the first listed signal of a satellite
+            seen[k] = (float(az), float(el), k[0])
+    return tuple([seen[k] for k in sorted(seen)])
 
 
 def _differs(rep: float | None, calc: dict[str, float] | None, key: str) -> bool:
@@ -86,63 +90,113 @@ class DopStats:
         self.hist_calc = {k: LogHistogram() for k in KEYS}
         self.current_rep: dict[str, float | None] = {}
         self.current_calc: dict[str, float] | None = None
-        self.current_single: dict[str, float] | None = None
+        self._single: dict[str, float] | None = None
+        self._single_of: tuple[list[float], list[float]] | None = None  # az, el still to solve
         self.current_n = 0
         self.compared = 0
         self.disagreements = 0
         self.disagreeing = False
         self._cache_key: tuple | None = None
-        self._calc_bins: list[tuple[LogHistogram, int]] = []
-        self._rep_key: tuple | None = None
         self._sats: tuple | None = None
         self._tok: object | None = None
         self._used: tuple | None = None
         self._geo: tuple = ()
+        self._rep_obj: tuple = (object(), object(), object())  # the reported floats, by identity
+        self._rep_key: tuple | None = None
+        # Histogram bins repeat for long runs of epochs: count the run, add it when the bins change
         self._rep_bins: list[tuple[LogHistogram, int]] = []
+        self._calc_bins: list[tuple[LogHistogram, int]] = []
+        self._rep_run = 0
+        self._calc_run = 0
+        self._verdict: tuple[bool, bool] | None = None  # (compared, disagree) for the current inputs
 
     def on_epoch(self, ep: Epoch) -> None:
-        if ep.sats is not self._sats or ep.used_prns != self._used:  # tuple reused while unchanged
-            tok = sats_token(ep.sats)  # or rebuilt with only new times: same geometry
-            if tok is None or tok is not self._tok or ep.used_prns != self._used:
+        sats, used = ep.sats, ep.used_prns
+        if sats is not self._sats or (used is not self._used and used != self._used):  # reused tuples
+            tok = sats_token(sats)  # or rebuilt with only new times: same geometry
+            if tok is None or tok is not self._tok or used != self._used:
                 self._geo = used_geometry(ep)
-            self._sats, self._used, self._tok = ep.sats, ep.used_prns, tok
-        geo = self._geo
-        if geo != self._cache_key:  # az/el are whole degrees and change slowly: cache
-            self._cache_key = geo
-            self.current_n = len(geo)
-            if len(geo) >= 4:
-                az = [g[0] for g in geo]
-                el = [g[1] for g in geo]
-                self.current_calc = geometry_dop(az, el, [g[2] for g in geo])
-                self.current_single = geometry_dop(az, el)
-            else:
-                self.current_calc = self.current_single = None
-            calc = self.current_calc
-            self._calc_bins = [] if calc is None else [
-                (self.hist_calc[k], b) for k in KEYS if (b := self.hist_calc[k].bin(calc[k])) is not None]
-        rep = {"pdop": ep.pdop, "hdop": ep.hdop, "vdop": ep.vdop}
-        rep["gdop"] = None  # NMEA 0183 GSA carries no GDOP
-        self.current_rep = rep
-        rkey = (ep.pdop, ep.hdop, ep.vdop)
-        if rkey != self._rep_key:  # reported values repeat for many epochs: cache their bins
-            self._rep_key = rkey
-            self._rep_bins = [(h, b) for k, h in self.hist_rep.items() if (b := h.bin(rep[k])) is not None]
-        for h, b in self._rep_bins:
-            h.add_bin(b)
-        calc = self.current_calc
-        for h, b in self._calc_bins:
-            h.add_bin(b)
-        self.disagreeing = False
-        if calc is not None and (ep.hdop is not None or ep.pdop is not None):
+            self._sats, self._used, self._tok = sats, used, tok
+            if self._geo != self._cache_key:  # az/el are whole degrees and change slowly: cache
+                self._new_geometry(self._geo)
+        pdop, hdop, vdop = ep.pdop, ep.hdop, ep.vdop
+        ro = self._rep_obj
+        if pdop is not ro[0] or hdop is not ro[1] or vdop is not ro[2]:
+            self._rep_obj = (pdop, hdop, vdop)
+            rep = {"pdop": pdop, "hdop": hdop, "vdop": vdop, "gdop": None}  # GSA carries no GDOP
+            self.current_rep = rep
+            rkey = (pdop, hdop, vdop)
+            if rkey != self._rep_key:  # reported values repeat for many epochs: cache their bins
+                self._verdict = None
+                self._flush_rep()
+                self._rep_key = rkey
+                self._rep_bins = [(h, b) for k, h in self.hist_rep.items() if (b := h.bin(rep[k])) is not None]
+        self._rep_run += 1
+        self._calc_run += 1
+        v = self._verdict
+        if v is None:
+            v = self._verdict = self._judge()
+        if v[0]:
             self.compared += 1
-            single = self.current_single
-            bad = any(_differs(rep[k], calc, k) and _differs(rep[k], single or calc, k)
-                      for k in ("hdop", "pdop"))
-            if bad:
+            if v[1]:
                 self.disagreements += 1
-                self.disagreeing = True
+        self.disagreeing = v[1]
+
+    def _new_geometry(self, geo: tuple) -> None:
+        self._verdict = None
+        self._flush_calc()
+        self._cache_key = geo
+        self.current_n = len(geo)
+        if len(geo) >= 4:
+            az = [g[0] for g in geo]
+            el = [g[1] for g in geo]
+            self.current_calc = geometry_dop(az, el, [g[2] for g in geo])
+            self._single, self._single_of = None, (az, el)  # solved when first asked for
+        else:
+            self.current_calc = self._single = None
+            self._single_of = None
+        calc = self.current_calc
+        self._calc_bins = [] if calc is None else [
+            (self.hist_calc[k], b) for k in KEYS if (b := self.hist_calc[k].bin(calc[k])) is not None]
+
+    @property
+    def current_single(self) -> dict[str, float] | None:
+        """DOP of the same satellites with one receiver clock; needed only when the reported
+        value is off the per-system-clock one, and for the snapshot."""
+        if self._single_of is not None:
+            self._single = geometry_dop(*self._single_of)
+            self._single_of = None
+        return self._single
+
+    def _judge(self) -> tuple[bool, bool]:
+        """Whether this epoch is compared, and whether it disagrees (pure in rep and calc)."""
+        calc, rep = self.current_calc, self.current_rep
+        if calc is None or (rep["hdop"] is None and rep["pdop"] is None):
+            return (False, False)
+        bad = any(_differs(rep[k], calc, k) and _differs(rep[k], self.current_single or calc, k)
+                  for k in ("hdop", "pdop"))
+        return (True, bad)
+
+    @staticmethod
+    def _add_run(bins: list[tuple[LogHistogram, int]], run: int) -> None:
+        for h, b in bins:
+            h.bins[b] = h.bins.get(b, 0) + run
+            h.n += run
+
+    def _flush_rep(self) -> None:
+        if self._rep_run:
+            self._add_run(self._rep_bins, self._rep_run)
+            self._rep_run = 0
+
+    def _flush_calc(self) -> None:
+        if self._calc_run:
+            self._add_run(self._calc_bins, self._calc_run)
+            self._calc_run = 0
 
     def snapshot(self) -> dict[str, Any]:
+        self._flush_rep()
+        self._flush_calc()
+
         def rnd(d: dict | None, keys: tuple[str, ...]) -> dict[str, float | None]:
             return {k: (None if d is None or d.get(k) is None else round(d[k], 3)) for k in keys}
 

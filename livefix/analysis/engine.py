@@ -41,9 +41,15 @@ class Analyzer:
         self.trend = Trend()
         self._epoch_stages: tuple[Callable[[Epoch], None], ...] = (
             self.integrity.on_epoch, self.fix.on_epoch, self.position.on_epoch, self.dop.on_epoch,
-            self.signal.on_epoch, self._sky)
+            self.signal.on_epoch)  # then sky (needs signal.active) and trend, in on_epoch
         self._event_stages: tuple[Callable[[Event], None], ...] = (
             self.integrity.on_event, self.fix.on_event, self.position.on_event)
+        # per-chunk and per-refused-line calls go straight to their one stage (hot, unguarded as
+        # before), unless a subclass overrides them
+        if type(self).on_chunk is Analyzer.on_chunk:
+            self.on_chunk = self.integrity.on_chunk  # type: ignore[method-assign]
+        if type(self).on_rejected is Analyzer.on_rejected:
+            self.on_rejected = self.integrity.on_rejected  # type: ignore[method-assign]
         self.internal_errors = 0  # a bug in one statistic must not end a multi-day soak
         self.last_error: str | None = None
 
@@ -58,25 +64,40 @@ class Analyzer:
     def on_event(self, ev: Event) -> None:
         self._log.add(ev)
         for stage in self._event_stages:
-            self._guard(stage, ev)
+            try:
+                stage(ev)
+            except Exception as exc:  # noqa: BLE001 - counted and shown in the snapshot
+                self._fail(stage, exc)
 
     def on_epoch(self, ep: Epoch) -> None:
+        # One try per stage (free in Python 3.11 until something raises): a failing stage is
+        # counted and the others still run.
         for stage in self._epoch_stages:
-            self._guard(stage, ep)
-        n_used = self.dop.current_n or ep.num_sv
-        start = iso(ep.utc if ep.utc is not None else ep.wall) if self.trend.t0 is None else None
-        self._guard(lambda e: self.trend.add(e.mono, start, h_err_m=self.position.h_error(),
-                                             cn0_mean=self.signal.cur_mean, sats_used=n_used), ep)
+            try:
+                stage(ep)
+            except Exception as exc:  # noqa: BLE001 - counted and shown in the snapshot
+                self._fail(stage, exc)
+        try:
+            self.sky.on_epoch(ep, self.signal.active is not None)
+        except Exception as exc:  # noqa: BLE001
+            self._fail(self._sky, exc)
+        try:
+            self._trend(ep)
+        except Exception as exc:  # noqa: BLE001
+            self._fail(self._trend, exc)
 
     def _sky(self, ep: Epoch) -> None:
         self.sky.on_epoch(ep, suspend=self.signal.active is not None)
 
-    def _guard(self, fn: Callable[[Any], None], arg: Any) -> None:
-        try:
-            fn(arg)
-        except Exception as exc:  # noqa: BLE001 - counted and shown in the snapshot
-            self.internal_errors += 1
-            self.last_error = f"{getattr(fn, '__qualname__', 'stage')}: {type(exc).__name__}: {exc}"
+    def _trend(self, ep: Epoch) -> None:
+        trend = self.trend
+        start = iso(ep.utc if ep.utc is not None else ep.wall) if trend.t0 is None else None
+        trend.add_values(ep.mono, start, self.position.h_error(), self.signal.cur_mean,
+                         self.dop.current_n or ep.num_sv)
+
+    def _fail(self, fn: Callable[..., Any], exc: Exception) -> None:
+        self.internal_errors += 1
+        self.last_error = f"{getattr(fn, '__qualname__', 'stage')}: {type(exc).__name__}: {exc}"
 
     # -- reference --------------------------------------------------------------------------
     def set_reference(self, lat: float, lon: float, h: float) -> None:

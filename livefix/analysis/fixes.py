@@ -21,12 +21,13 @@ monotonic stamps). Definitions:
 from __future__ import annotations
 
 import math
+from bisect import bisect_left, insort
 from collections import deque
 from collections.abc import Callable
-from statistics import median
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.analysis.geo import Projector
 from livefix.analysis.streaming import Timeline, num, valid_fix
 from livefix.geodesy import LocalFrame
 from livefix.state.epoch import FIX_NAMES, Epoch, Event
@@ -36,6 +37,8 @@ LIST_CAP = 200  # newest items kept per list; older ones only counted
 GAP_FACTOR = 3.0  # an epoch gap longer than this many intervals is an outage
 EW_N = 300.0  # memory of the recent-sigma estimate, epochs
 EW_MIN = 20  # epochs of a fix type before its sigma is trusted for jumps
+_EW_A = 1.0 / EW_N
+DT_N = 32  # epoch intervals whose median is the nominal interval
 
 
 class _Recent:
@@ -48,7 +51,9 @@ class _Recent:
 
     def add(self, e: float, n: float) -> None:
         self.n += 1
-        a = max(1.0 / self.n, 1.0 / EW_N)
+        a = 1.0 / self.n  # max(1 / n, 1 / EW_N)
+        if _EW_A > a:
+            a = _EW_A
         de, dn = e - self.me, n - self.mn
         self.me += a * de
         self.mn += a * dn
@@ -87,17 +92,35 @@ class FixStats:
         self.reacq: deque[float] = deque(maxlen=LIST_CAP)
         self.jumps: deque[dict[str, Any]] = deque(maxlen=LIST_CAP)
         self.jumps_total = 0
-        self._dts: deque[float] = deque(maxlen=32)
+        self._dts: deque[float] = deque(maxlen=DT_N)
+        self._dts_sorted: list[float] = []  # the same values, sorted: the median without a sort
+        self._iv = 1.0  # median of _dts (1.0 while empty), kept current on every append
         self._prev_t: float | None = None
         self._last_fix: tuple[float, float, str, float, float] | None = None  # t, abs, fix, e, n
         self._lost_at: tuple[float, float] | None = None  # (t, abs) of the first missing epoch
         self._frame: LocalFrame | None = None
+        self._proj: Projector | None = None
         self._recent: dict[str, _Recent] = {}
         self.current = "none"
 
     # ---- helpers ---------------------------------------------------------------------------
     def _interval(self) -> float:
-        return median(self._dts) if self._dts else 1.0
+        return self._iv
+
+    def _add_dt(self, dt: float) -> None:
+        """Append to the interval window; the median is that of statistics.median (values are
+        finite or +inf, never NaN: they come from `t > previous t`)."""
+        q, srt = self._dts, self._dts_sorted
+        if len(q) == DT_N:
+            if q[0] == dt:  # the same value leaves and enters: sorted window and median unchanged
+                q.append(dt)
+                return
+            del srt[bisect_left(srt, q[0])]
+        q.append(dt)
+        insort(srt, dt)
+        n = len(srt)
+        i = n // 2
+        self._iv = srt[i] if n % 2 else (srt[i - 1] + srt[i]) / 2
 
     def _event(self, ep: Epoch, kind: str, text: str, **data: Any) -> None:
         self.emit(Event(mono=ep.mono, wall=ep.wall, kind=kind, text=text, utc=ep.utc, data=data))
@@ -116,7 +139,7 @@ class FixStats:
     def on_epoch(self, ep: Epoch) -> None:
         t = self.clock.step(ep)
         abs_t = self.clock.abs_time
-        if ep.sentences and not _POSITION_SENTENCES.intersection(ep.sentences):
+        if ep.sentences and _POSITION_SENTENCES.isdisjoint(ep.sentences):
             # nothing decodable said whether there was a fix (e.g. GGA and RMC lost to checksum
             # errors): that is a stream fault, counted there, not a receiver outage
             self.no_position += 1
@@ -125,7 +148,7 @@ class FixStats:
             return
         self.epochs += 1
         if self._prev_t is not None and t > self._prev_t:
-            self._dts.append(t - self._prev_t)
+            self._add_dt(t - self._prev_t)
         fixed = valid_fix(ep)
         name = ep.fix if fixed else "none"
         self.counts[name] = self.counts.get(name, 0) + 1
@@ -150,6 +173,9 @@ class FixStats:
     def _ttff(self, t: float, q: int) -> None:
         s = self._start
         assert s is not None
+        if not (s["ttff_s"] is None or (q == 2 and s["ttff_dgnss_s"] is None)
+                or (q == 4 and s["ttff_rtk_fixed_s"] is None)):
+            return  # nothing left to set for this fix type (the usual case after the first fix)
         dt = num(t - s["t"], 3)
         if s["ttff_s"] is None:
             s["ttff_s"] = dt
@@ -188,14 +214,24 @@ class FixStats:
         return False
 
     def _jump(self, ep: Epoch, t: float, abs_t: float | None, name: str, check: bool) -> None:
-        if self._frame is None:
-            self._frame = LocalFrame(ep.lat, ep.lon, ep.h or 0.0)
-        e, n, _ = self._frame.enu(ep.lat, ep.lon, ep.h or 0.0)
+        lat, lon, h = ep.lat, ep.lon, ep.h or 0.0
+        proj = self._proj
+        if proj is None:
+            self._frame = LocalFrame(lat, lon, h)
+            proj = self._proj = Projector(self._frame)
+        e, n, _ = proj.enu(lat, lon, h)
         lf = self._last_fix
-        rec = self._recent.setdefault(name, _Recent())
+        rec = self._recent.get(name)
+        if rec is None:
+            rec = self._recent[name] = _Recent()
         if check and lf is not None and lf[2] == name and self.current == name:
             step = math.hypot(e - lf[3], n - lf[4])
-            lim = max(self.cfg.jump_m, self.cfg.jump_sigma * rec.sigma()) if rec.n >= EW_MIN else math.inf
+            if rec.n >= EW_MIN:  # max(jump_m, jump_sigma * sigma)
+                lim, k_sigma = self.cfg.jump_m, self.cfg.jump_sigma * rec.sigma()
+                if k_sigma > lim:
+                    lim = k_sigma
+            else:
+                lim = math.inf
             if step > lim:
                 self.jumps.append({"time": iso(abs_t), "distance_m": num(step, 3), "fix": name})
                 self.jumps_total += 1

@@ -15,6 +15,7 @@ bench long before its positions look wrong. All times come from the stream items
 from __future__ import annotations
 
 import math
+from bisect import bisect_left, insort
 from collections import deque
 from collections.abc import Callable
 from typing import Any
@@ -55,6 +56,9 @@ class StreamIntegrity:
         self.epochs = 0
         self.prev: Epoch | None = None
         self.iv_nominal: deque[float] = deque(maxlen=WINDOW)  # utc (or host) intervals
+        self._iv_sorted: list[float] = []  # the same values sorted, for the median without a sort
+        self._iv_nan = 0  # NaN intervals in the window (sorting them is order-dependent: then sort)
+        self._nominal: float | None = None  # nominal() of the current window
         self.iv_host: deque[float] = deque(maxlen=WINDOW)
         self.gaps: list[dict[str, Any]] = []
         self.gap_count = 0
@@ -75,7 +79,8 @@ class StreamIntegrity:
                 self._stall(self.last_mono, self.last_wall, gap, mono, wall)
         self.pending_stall = False
         self.last_mono, self.last_wall = mono, wall
-        self.latest = max(self.latest, mono)
+        if mono > self.latest:  # max(): NaN never replaces the latest time
+            self.latest = mono
         self.bytes += nbytes
 
     def _stall(self, m0: float, w0: float, dur: float, mono: float, wall: float) -> None:
@@ -125,7 +130,7 @@ class StreamIntegrity:
             dt = ep.utc - p.utc
         if dt <= 0:
             return
-        nominal = self.nominal()
+        nominal = self._nominal
         if nominal is not None and dt > GAP_FACTOR * nominal:
             self.gap_count += 1
             self.gaps.append({"start": iso(p.utc if p.utc is not None else p.wall),
@@ -134,11 +139,36 @@ class StreamIntegrity:
                 del self.gaps[0]
         else:
             self.iv_host.append(host)
-        self.iv_nominal.append(dt)
+        self._add_interval(dt)
+
+    def _add_interval(self, dt: float) -> None:
+        q, srt = self.iv_nominal, self._iv_sorted
+        if len(q) == WINDOW:
+            old = q[0]
+            if old == dt and not self._iv_nan:  # the same value leaves and enters: median unchanged
+                q.append(dt)
+                return
+            if old != old:
+                self._iv_nan -= 1
+            else:
+                del srt[bisect_left(srt, old)]
+        q.append(dt)
+        if dt != dt:
+            self._iv_nan += 1
+        else:
+            insort(srt, dt)
+        n = len(q)
+        if n < 5:
+            self._nominal = None
+        elif self._iv_nan:
+            self._nominal = _median(list(q))
+        else:
+            i = n // 2
+            self._nominal = srt[i] if n % 2 else 0.5 * (srt[i - 1] + srt[i])
 
     # -- reading ----------------------------------------------------------------------------
     def nominal(self) -> float | None:
-        return _median(list(self.iv_nominal)) if len(self.iv_nominal) >= 5 else None
+        return self._nominal
 
     def jitter_ms(self) -> float | None:
         xs = list(self.iv_host)

@@ -27,6 +27,7 @@ import numpy as np
 
 from livefix.analysis.config import AnalysisConfig
 from livefix.analysis.convergence import Tracker, first_hold
+from livefix.analysis.geo import Projector
 from livefix.analysis.streaming import Timeline, num, valid_fix
 from livefix.analysis.track import Track
 from livefix.geodesy import LocalFrame
@@ -39,10 +40,6 @@ SETTLE_EPOCHS = 60  # fixes averaged for the session-mean reference, which then 
 HEAD_CAP = 36000  # first epochs kept whole for convergence (1 h at 10 Hz)
 MAX_SAMPLES = 2000
 NAN = float("nan")
-
-
-def _nz(x: float | None) -> float:
-    return NAN if x is None else float(x)
 
 
 class PositionStats:
@@ -63,9 +60,13 @@ class PositionStats:
         self.ref_source: str | None = None
         self.ref_enu: tuple[float, float, float] | None = None
         self.ref_frame: LocalFrame | None = None
+        self._anchor_p: Projector | None = None  # the two frames above, with the ECEF memo
+        self._ref_p: Projector | None = None
         self.ref_fix: str | None = None  # fix type whose first epochs gave the session-mean reference
         self.head = np.full((HEAD_CAP, 5), np.nan)  # t, e, n, u, quality
-        self.head_n = 0
+        self.head_n = 0  # rows added; the newest wait in _head_pend until a reader flushes them
+        self._head_pend: list[tuple[float, float, float, float, int]] = []
+        self._head_done = 0
         self._trk_h = Tracker(self.cfg.converge_hold_s)
         self._trk_v = Tracker(self.cfg.converge_hold_s)
         self._medians: dict[str, tuple[float, float, float]] | None = None
@@ -89,8 +90,10 @@ class PositionStats:
         self.ref = (float(lat), float(lon), float(h))
         self.ref_source = source
         self.ref_frame = LocalFrame(*self.ref)
+        self._ref_p = Projector(self.ref_frame)
         if self.anchor is None:
             self.anchor = LocalFrame(*self.ref)
+            self._anchor_p = Projector(self.anchor)
         self.ref_enu = self.anchor.enu(*self.ref)
         self._cache = None
 
@@ -101,23 +104,28 @@ class PositionStats:
     def on_epoch(self, ep: Epoch) -> None:
         t = self.clock.step(ep)
         self._epochs += 1
-        fix = ep.fix if valid_fix(ep) else None
-        self._fixed_now = fix is not None
-        if fix is None:
+        if not valid_fix(ep):
+            self._fixed_now = False
             self._head_add(t, NAN, NAN, NAN, 0)
             return
-        h = ep.h
+        self._fixed_now = True
+        fix = FIX_NAMES.get(ep.quality, "none")  # Epoch.fix
+        lat, lon, h = ep.lat, ep.lon, ep.h
         if h is None:  # e.g. RMC-only epochs: carry the last height, and say how often
             self.no_height += 1
             h = self._last[2] if self._last is not None else (self.ref[2] if self.ref else 0.0)
-        if self.anchor is None:
-            self.anchor = LocalFrame(ep.lat, ep.lon, h)
-        e, n, u = self.anchor.enu(ep.lat, ep.lon, h)
-        self._last = (ep.lat, ep.lon, h)
+        ap = self._anchor_p
+        if ap is None:
+            self.anchor = LocalFrame(lat, lon, h)
+            ap = self._anchor_p = Projector(self.anchor)
+        e, n, u = ap.enu(lat, lon, h)
+        self._last = (lat, lon, h)
         trk = self.tracks.get(fix)
         if trk is None:
             trk = self.tracks[fix] = Track()
-        trk.add(t, e, n, u, _nz(ep.sigma_lat), _nz(ep.sigma_lon), _nz(ep.sigma_alt), _nz(ep.hdop))
+        sl, so, sa, hd = ep.sigma_lat, ep.sigma_lon, ep.sigma_alt, ep.hdop
+        trk.add(t, e, n, u, NAN if sl is None else float(sl), NAN if so is None else float(so),
+                NAN if sa is None else float(sa), NAN if hd is None else float(hd))
         self._head_add(t, e, n, u, ep.quality)
         if self._auto and trk.n == SETTLE_EPOCHS and self._better(fix):
             self._set_ref(*self.anchor.geodetic(*trk.mom.m), source="session_mean")
@@ -132,16 +140,28 @@ class PositionStats:
 
     def _head_add(self, t: float, e: float, n: float, u: float, q: int) -> None:
         if self.head_n < HEAD_CAP:
-            self.head[self.head_n] = (t, e, n, u, q)
+            p = self._head_pend
+            p.append((t, e, n, u, q))
             self.head_n += 1
             if self.head_n == HEAD_CAP:
                 self._seed_trackers()
+            elif len(p) >= 256:
+                self._head_flush()
             return
-        for trk, err, thr in ((self._trk_h, self._err_h, self._thr_h), (self._trk_v, self._err_v, self._thr_v)):
-            name = FIX_NAMES.get(q, "none")
-            lim = thr.get(name)
-            c = self._centre(name)
-            trk.add(t, lim is not None and c is not None and err(e, n, u, c) <= lim)
+        name = FIX_NAMES.get(q, "none")
+        c = self._centre(name)
+        lim = self._thr_h.get(name)
+        self._trk_h.add(t, lim is not None and c is not None and self._err_h(e, n, u, c) <= lim)
+        lim = self._thr_v.get(name)
+        self._trk_v.add(t, lim is not None and c is not None and self._err_v(e, n, u, c) <= lim)
+
+    def _head_flush(self) -> None:
+        """Write the waiting head rows in one slice (a numpy row at a time is slow)."""
+        p = self._head_pend
+        if p:
+            self.head[self._head_done:self._head_done + len(p)] = p
+            self._head_done += len(p)
+            p.clear()
 
     def _seed_trackers(self) -> None:
         """Head buffer full: carry a still-running inside spell over to the streaming trackers,
@@ -173,6 +193,7 @@ class PositionStats:
         return self._head_medians().get(fix)
 
     def _head_medians(self) -> dict[str, tuple[float, float, float]]:
+        self._head_flush()
         a = self.head[: self.head_n]
         out = {}
         for q in np.unique(a[:, 4]).astype(int):
@@ -182,6 +203,7 @@ class PositionStats:
         return out  # type: ignore[return-value]
 
     def _inside(self, which: str) -> tuple[np.ndarray, np.ndarray]:
+        self._head_flush()
         a = self.head[: self.head_n]
         thr = self._thr_h if which == "h" else self._thr_v
         inside = np.zeros(a.shape[0], dtype=bool)
@@ -221,9 +243,9 @@ class PositionStats:
     def h_error(self) -> float | None:
         """Horizontal distance of the latest epoch from the reference, metres (for trends);
         None while the latest epoch has no fix or there is no reference yet."""
-        if self._last is None or self.ref_frame is None or not self._fixed_now:
+        if self._last is None or self._ref_p is None or not self._fixed_now:
             return None
-        e, n, _ = self.ref_frame.enu(*self._last)
+        e, n, _ = self._ref_p.enu(*self._last)
         return math.hypot(e, n)
 
     def sigma_h(self) -> float | None:

@@ -67,6 +67,7 @@ class SignalStats:
         self.bands = [[0.0, 0] for _ in range(9)]
         self.cs = [0.0] * 5  # n, Σx, Σx², Σy, Σxy  (x = sin el)
         self.cur: list[SatObs] = []  # tracked signals of the latest epoch
+        self._cur_sum: float = 0
         self.cur_mean: float | None = None
         self.cur_top4: float | None = None
         self.base: dict[tuple, list[float]] = {}  # key -> [ema, n, last_t]
@@ -84,8 +85,9 @@ class SignalStats:
             self._last_sats, self._last_tok = ep.sats, tok
             self.cur = [s for s in ep.sats if s.cn0 and s.cn0 > 0]
             vals = [s.cn0 for s in self.cur]
+            self._cur_sum = sum(vals)  # what _accumulate adds per sample (same terms, same order)
             if vals:
-                self.cur_mean = sum(vals) / len(vals)
+                self.cur_mean = self._cur_sum / len(vals)
                 top = sorted(vals, reverse=True)[:4]
                 self.cur_top4 = sum(top) / len(top)
             else:
@@ -99,28 +101,32 @@ class SignalStats:
     def _accumulate(self) -> None:
         mask = self.config.elev_mask_deg
         cs, bands, by_sys, sin = self.cs, self.bands, self.by_sys, _SIN
-        for s in self.cur:
-            c = s.cn0 or 0
-            acc = by_sys.get(s.system)
-            if acc is None:
-                acc = by_sys[s.system] = [0.0, 0]
-            acc[0] += c
-            acc[1] += 1
-            el = s.elev
-            if el is not None and 0 <= el <= 90:
-                b = bands[el // 10 if el < 90 else 8]
-                b[0] += c
-                b[1] += 1
-                if el >= mask:
-                    x = sin[el]
-                    cs[0] += 1
-                    cs[1] += x
-                    cs[2] += x * x
-                    cs[3] += c
-                    cs[4] += x * c
+        n0, sx, sxx, sy, sxy = cs  # running sums in locals, the same additions in the same order
+        try:  # finally: a bad satellite leaves the sums as far as they got, as in-place adds did
+            for s in self.cur:
+                c = s.cn0 or 0
+                acc = by_sys.get(s.system)
+                if acc is None:
+                    acc = by_sys[s.system] = [0.0, 0]
+                acc[0] += c
+                acc[1] += 1
+                el = s.elev
+                if el is not None and 0 <= el <= 90:
+                    b = bands[el // 10 if el < 90 else 8]
+                    b[0] += c
+                    b[1] += 1
+                    if el >= mask:
+                        x = sin[el]
+                        n0 += 1
+                        sx += x
+                        sxx += x * x
+                        sy += c
+                        sxy += x * c
+        finally:
+            cs[:] = (n0, sx, sxx, sy, sxy)
         if self.cur:
             self.n += len(self.cur)
-            self.sum += sum(s.cn0 or 0 for s in self.cur)
+            self.sum += self._cur_sum
             self.top4_sum += self.cur_top4 or 0.0
             self.top4_n += 1
 
@@ -130,40 +136,49 @@ class SignalStats:
         drops: list[float] = []  # every satellite with a baseline; lost ones count as dropped
         measured: list[float] = []  # those still tracked
         seen = set()
+        seen_add, base_get, drop, meas = seen.add, base.get, drops.append, measured.append
         for s in ep.sats:
-            k = s.key
-            seen.add(k)
-            b = base.get(k)
-            c = s.cn0 if s.cn0 and s.cn0 > 0 else None
-            if b is not None and b[1] >= BASE_MIN_N:
-                if c is not None:
-                    measured.append(b[0] - c)
-                    drops.append(b[0] - c)
-                elif t - b[2] <= LOST_S:  # lost lock recently (not a satellite long behind a wall)
-                    drops.append(max(thr, b[0] - LOST_CN0))
-            if c is None:
-                continue
-            if b is None:
+            k = (s.system, s.prn, s.signal)  # SatObs.key
+            seen_add(k)
+            b = base_get(k)
+            c = s.cn0
+            if not (c and c > 0):
+                c = None
+            if b is not None:
+                bn = b[1]
+                if bn >= BASE_MIN_N:
+                    if c is not None:
+                        d = b[0] - c
+                        meas(d)
+                        drop(d)
+                    elif t - b[2] <= LOST_S:  # lost lock recently (not a satellite long behind a wall)
+                        drop(max(thr, b[0] - LOST_CN0))
+                if c is None:
+                    continue
+                if not frozen or bn < BASE_MIN_N:
+                    if bn >= BASE_MIN_N:  # min(1, max(0, dt) / tau) without the builtin calls (hot)
+                        a = t - b[2]
+                        a = (a if a > 0.0 else 0.0) / BASE_TAU_S
+                        if a > 1.0:
+                            a = 1.0
+                    else:
+                        a = 1.0 / (bn + 1)
+                    b[0] += a * (c - b[0])
+                    b[1] = bn + 1
+                b[2] = t
+            elif c is not None:
                 base[k] = [float(c), 1, t]
-            elif not frozen or b[1] < BASE_MIN_N:
-                a = min(1.0, max(0.0, t - b[2]) / BASE_TAU_S) if b[1] >= BASE_MIN_N else 1.0 / (b[1] + 1)
-                b[0] += a * (c - b[0])
-                b[1] += 1
-                b[2] = t
-            else:
-                b[2] = t
-        for k in list(base):
-            if k in seen:
-                continue
-            b = base[k]
-            if t - b[2] > FORGET_S:
-                del base[k]
-            elif t - b[2] <= LOST_S and b[1] >= BASE_MIN_N:
-                drops.append(max(thr, b[0] - LOST_CN0))
+        if len(base) > len(seen) or not seen.issuperset(base):
+            for k in [k for k in base if k not in seen]:
+                b = base[k]
+                if t - b[2] > FORGET_S:
+                    del base[k]
+                elif t - b[2] <= LOST_S and b[1] >= BASE_MIN_N:
+                    drops.append(max(thr, b[0] - LOST_CN0))
         if len(measured) < MIN_MEASURED:  # nothing (or too little) left to judge by: not decided here
             return
         med = _median(measured)
-        share = sum(1 for d in drops if d >= thr) / len(drops)
+        share = sum([d >= thr for d in drops]) / len(drops)  # a count of True, as an int
         act = self.active
         if act is None and share >= SHARE and med >= thr:
             self.active = {"mono": t, "start": iso(ep.utc if ep.utc is not None else ep.wall),

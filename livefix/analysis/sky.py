@@ -49,19 +49,28 @@ class SkyMap:
             return
         self._t = ep.mono
         per: dict[tuple[str, int], tuple[int, int, int]] = {}  # one entry per satellite: max C/N0
+        get = per.get
         for s in ep.sats:
-            if s.elev is None or s.azim is None or not 0 <= s.elev <= 90:
+            el, az = s.elev, s.azim
+            if el is None or az is None or not 0 <= el <= 90:
                 continue
-            c = s.cn0 if s.cn0 and s.cn0 > 0 else 0
+            c = s.cn0
+            if not (c and c > 0):
+                c = 0
             k = (s.system, s.prn)
-            old = per.get(k)
+            old = get(k)
             if old is None or c > old[2]:
-                per[k] = (s.elev, s.azim, c)
-        if sum(1 for v in per.values() if v[2]) < MIN_TRACKED:
+                per[k] = (el, az, c)
+        tracked = 0
+        for v in per.values():
+            if v[2]:
+                tracked += 1
+        if tracked < MIN_TRACKED:
             return
         tr, un, cn = self.tracked, self.untracked, self.cn0
         for el, az, c in per.values():
-            i = min(el // EL_STEP, N_EL - 1) * N_AZ + (int(az) % 360) // AZ_STEP
+            r = el // EL_STEP
+            i = (N_EL - 1 if r > N_EL - 1 else r) * N_AZ + (int(az) % 360) // AZ_STEP  # min(r, top)
             if c:
                 tr[i] += 1
                 cn[i] += c

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Sequence
+from math import isfinite, log10
 
 import numpy as np
 
@@ -24,13 +25,22 @@ def num(x: float | None, nd: int = 4) -> float | None:
     return round(x, nd)
 
 
+_vf_memo: tuple[object, bool] = (None, False)
+
+
 def valid_fix(ep: Epoch) -> bool:
-    """A fix whose coordinates can be used: one NaN would poison every running sum for good."""
-    if not ep.has_fix:
-        return False
+    """A fix whose coordinates can be used: one NaN would poison every running sum for good.
+    Remembered for the latest epoch object (several statistics ask about the same epoch)."""
+    global _vf_memo
+    m = _vf_memo
+    if m[0] is ep:
+        return m[1]
     lat, lon, h = ep.lat, ep.lon, ep.h
-    return (math.isfinite(lat) and math.isfinite(lon) and -90.0 <= lat <= 90.0 and -180.0 <= lon <= 360.0
-            and (h is None or (math.isfinite(h) and abs(h) < 1e7)))
+    ok = (ep.quality > 0 and lat is not None and lon is not None and math.isfinite(lat)
+          and math.isfinite(lon) and -90.0 <= lat <= 90.0 and -180.0 <= lon <= 360.0
+          and (h is None or (math.isfinite(h) and abs(h) < 1e7)))
+    _vf_memo = (ep, ok)
+    return ok
 
 
 class Timeline:
@@ -53,23 +63,28 @@ class Timeline:
 
     def step(self, ep: Epoch) -> float:
         self.reset = False
-        if self.t is None:
-            self.t = 0.0
+        utc, mono, t = ep.utc, ep.mono, self.t
+        if t is None:
+            t = 0.0
         else:
             dt = None
-            if ep.utc is not None and self._utc is not None:
-                d = ep.utc - self._utc
+            if utc is not None and self._utc is not None:
+                d = utc - self._utc
                 if 0.0 <= d < 86400.0:
                     dt = d
                 elif d < -1.0:
                     self.reset = True
             if dt is None:
-                dt = max(0.0, ep.mono - self._mono) if self._mono is not None else 0.0
-            self.t += dt
-        self._utc = ep.utc if ep.utc is not None else self._utc
-        self._mono = ep.mono
-        self.abs_time = ep.utc if ep.utc is not None else ep.wall
-        return self.t
+                dt = max(0.0, mono - self._mono) if self._mono is not None else 0.0
+            t += dt
+        self.t = t
+        if utc is not None:
+            self._utc = utc
+            self.abs_time = utc
+        else:
+            self.abs_time = ep.wall
+        self._mono = mono
+        return t
 
     def at_mono(self, mono: float) -> float | None:
         """Session time of a host monotonic stamp (for events between epochs)."""
@@ -78,30 +93,64 @@ class Timeline:
         return self.t + (mono - self._mono)
 
 
+FLUSH = 64  # rows collected in a list before one numpy slice assignment (a row at a time is slow)
+
+
 class Ring:
-    """Fixed-capacity ring of float rows (columns chosen by the caller); oldest rows fall out."""
+    """Fixed-capacity ring of float rows (columns chosen by the caller); oldest rows fall out.
+    Pushed rows wait in a short list and are written in batches; every reader flushes first
+    (so a pushed row must not be changed afterwards: tuples, as Track pushes)."""
 
     def __init__(self, capacity: int, cols: int) -> None:
         self.buf = np.full((capacity, cols), np.nan)
         self.cap = capacity
-        self.i = 0  # next write slot
-        self.n = 0  # rows held
+        self._i = 0  # next write slot (of the flushed rows)
+        self._n = 0  # rows held (flushed)
         self.total = 0  # rows ever pushed
+        self._pend: list[Sequence[float]] = []
 
     def push(self, row: Sequence[float]) -> None:
-        self.buf[self.i] = row
-        self.i = (self.i + 1) % self.cap
-        self.n = min(self.n + 1, self.cap)
+        p = self._pend
+        p.append(row)
         self.total += 1
+        if len(p) >= FLUSH:
+            self._flush()
+
+    def _flush(self) -> None:
+        p = self._pend
+        k = len(p)
+        if not k:
+            return
+        i, j, cap = self._i, 0, self.cap
+        while j < k:
+            m = min(k - j, cap - i)
+            self.buf[i:i + m] = p[j:j + m]
+            i = (i + m) % cap
+            j += m
+        self._i = i
+        self._n = min(self._n + k, cap)
+        p.clear()
+
+    @property
+    def i(self) -> int:
+        self._flush()
+        return self._i
+
+    @property
+    def n(self) -> int:
+        self._flush()
+        return self._n
 
     def array(self) -> np.ndarray:
         """Rows oldest first (a copy)."""
-        if self.n < self.cap:
-            return self.buf[: self.n].copy()
-        return np.concatenate((self.buf[self.i:], self.buf[: self.i]))
+        self._flush()
+        if self._n < self.cap:
+            return self.buf[: self._n].copy()
+        return np.concatenate((self.buf[self._i:], self.buf[: self._i]))
 
     def clear(self) -> None:
-        self.i = self.n = self.total = 0
+        self._i = self._n = self.total = 0
+        self._pend.clear()
 
 
 class Moments:
@@ -135,18 +184,25 @@ class LogHistogram:
     LO, DECADES, PER_DECADE = 1e-4, 9, 64
 
     def __init__(self) -> None:
-        self.counts = np.zeros(self.DECADES * self.PER_DECADE + 2, dtype=np.int64)
+        self._c = [0] * (self.DECADES * self.PER_DECADE + 2)  # a list: += 1 on numpy is slow
         self.n = 0
 
+    @property
+    def counts(self) -> np.ndarray:
+        return np.array(self._c, dtype=np.int64)
+
     def add(self, r: float) -> None:
-        if not math.isfinite(r):
+        if not isfinite(r):
             return
-        if r <= self.LO:
+        c = self._c
+        if r <= _LH_LO:
             k = 0
         else:
-            k = 1 + int(math.log10(r / self.LO) * self.PER_DECADE)
-            k = min(k, self.counts.size - 1)
-        self.counts[k] += 1
+            k = 1 + int(log10(r / _LH_LO) * _LH_PD)
+            top = len(c) - 1
+            if k > top:  # min(k, top)
+                k = top
+        c[k] += 1
         self.n += 1
 
     def quantile(self, p: float) -> float | None:
@@ -160,6 +216,9 @@ class LogHistogram:
         return self.LO * 10 ** ((k - 0.5) / self.PER_DECADE)
 
 
+_LH_LO, _LH_PD = LogHistogram.LO, LogHistogram.PER_DECADE  # module names: cheaper in add()
+
+
 class PairHistory:
     """Bounded evenly-decimated history: when full, neighbouring pairs are averaged and the sample
     interval doubles, so the record always spans the whole session with at most `cap` rows.
@@ -170,25 +229,55 @@ class PairHistory:
         assert cap % 2 == 0
         self.cap, self.cols = cap, cols
         self.buf = np.zeros((cap, cols))
-        self.n = 0
+        self._n = 0  # rows in buf; finished rows wait in _pend (written in batches)
+        self._pend: list[tuple[float, ...]] = []
         self.factor = 1  # raw samples per stored row
-        self._acc = np.zeros(cols)
+        self._acc = [0.0] * cols  # Python floats: the same IEEE sums as numpy, much cheaper per row
         self._k = 0
 
     def add(self, row: Sequence[float]) -> None:
-        self._acc += row
+        self._acc = [a + x for a, x in zip(self._acc, row, strict=True)]
         self._k += 1
-        if self._k < self.factor:
-            return
-        self.buf[self.n] = self._acc / self._k
-        self.n += 1
-        self._acc[:] = 0.0
+        if self._k >= self.factor:
+            self._complete()
+
+    def add3(self, x: float, y: float, z: float) -> None:
+        """add((x, y, z)) for a three-column history, without the per-row list building."""
+        acc = self._acc
+        acc[0] += x
+        acc[1] += y
+        acc[2] += z
+        self._k += 1
+        if self._k >= self.factor:
+            self._complete()
+
+    def _complete(self) -> None:
+        """The accumulated raw samples (_k >= factor of them) make one row."""
+        k, p = self._k, self._pend
+        p.append(tuple([a / k for a in self._acc]))
+        self._acc = [0.0] * self.cols
         self._k = 0
-        if self.n == self.cap:
+        if len(p) >= FLUSH or self._n + len(p) == self.cap:
+            self._flush()
+
+    def _flush(self) -> None:
+        p = self._pend
+        if not p:
+            return
+        self.buf[self._n:self._n + len(p)] = p
+        self._n += len(p)
+        p.clear()
+        if self._n == self.cap:
             half = self.cap // 2
             self.buf[:half] = 0.5 * (self.buf[0::2] + self.buf[1::2])
-            self.n = half
+            self._n = half
             self.factor *= 2
 
+    @property
+    def n(self) -> int:
+        self._flush()
+        return self._n
+
     def array(self) -> np.ndarray:
-        return self.buf[: self.n].copy()
+        self._flush()
+        return self.buf[: self._n].copy()

@@ -70,12 +70,13 @@ class Track:
             hdop: float) -> None:
         m = self.mom
         if m.n >= WARMUP:  # radius about the running mean: close to the final mean once settled
-            self.hist_r.add(math.hypot(e - m.m[0], n - m.m[1]))
-            self.hist_v.add(abs(u - m.m[2]))
+            mm = m.m
+            self.hist_r.add(math.hypot(e - mm[0], n - mm[1]))
+            self.hist_v.add(abs(u - mm[2]))
         m.add(e, n, u)
         self.ring.push((t, e, n, u, slat, slon, salt, hdop))
         self.blocks.add(t, e, n, u)
-        self.allan.add((e, n, u))
+        self.allan.add3(e, n, u)
 
     @property
     def n(self) -> int:

@@ -8,7 +8,7 @@ the items, mean time of the bucket); `t0` is that first epoch as ISO 8601 UTC.
 
 from __future__ import annotations
 
-import math
+from math import isfinite
 from typing import Any
 
 MAX_POINTS = 600
@@ -29,6 +29,11 @@ class Trend:
         self.buckets: list[list[float] | None] = []
 
     def add(self, mono: float, wall_iso: str | None, **vals: float | None) -> None:
+        self.add_values(mono, wall_iso, *(vals.get(name) for name in FIELDS))
+
+    def add_values(self, mono: float, wall_iso: str | None, h_err_m: float | None, cn0_mean: float | None,
+                   sats_used: float | None) -> None:
+        """add() with the FIELDS in order, positionally (the per-epoch path: no keyword dict)."""
         if self.t0 is None:
             self.t0, self.t0_iso = mono, wall_iso
         t = mono - self.t0
@@ -39,18 +44,24 @@ class Trend:
             self._merge()
             idx = int(t // self.width)
         bs = self.buckets
-        while len(bs) <= idx:
-            bs.append(None)
-        b = bs[idx]
+        if idx < len(bs):
+            b = bs[idx]
+        else:
+            bs.extend([None] * (idx + 1 - len(bs)))
+            b = None
         if b is None:
             b = bs[idx] = [0.0] * (2 + 2 * len(FIELDS))
         b[0] += 1
         b[1] += t
-        for k, name in enumerate(FIELDS):
-            v = vals.get(name)
-            if v is not None and math.isfinite(v):
-                b[2 + 2 * k] += v
-                b[3 + 2 * k] += 1
+        if h_err_m is not None and isfinite(h_err_m):
+            b[2] += h_err_m
+            b[3] += 1
+        if cn0_mean is not None and isfinite(cn0_mean):
+            b[4] += cn0_mean
+            b[5] += 1
+        if sats_used is not None and isfinite(sats_used):
+            b[6] += sats_used
+            b[7] += 1
 
     def _merge(self) -> None:
         old, new = self.buckets, []

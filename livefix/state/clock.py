@@ -66,7 +66,7 @@ class UtcClock:
             dt = utc - self.last_utc
             if dt < 0:
                 notes.append(("time_rollback", f"receiver time went back {-dt:.3f} s", {"step_s": dt}))
-            elif dt > max(self.JUMP_MIN_S, self.JUMP_FACTOR * self.nominal_s):
+            elif dt > self.JUMP_MIN_S and dt > self.JUMP_FACTOR * self.nominal_s:  # median only then
                 notes.append(("time_jump", f"receiver time jumped ahead {dt:.3f} s", {"step_s": dt}))
             elif dt > 0:
                 self._steps.append(dt)
