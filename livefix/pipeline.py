@@ -69,7 +69,10 @@ class Snapshot:
 
 
 class Pipeline:
-    def __init__(self, config: AnalysisConfig | None = None, source: str = "") -> None:
+    def __init__(self, config: AnalysisConfig | None = None, source: str = "", analyzer: Any = None) -> None:
+        """analyzer: anything with the Analyzer's on_chunk, on_rejected, on_event, on_epoch and
+        snapshot(counters) (e.g. livefix.parallel's proxy for an analysis process); default a real
+        Analyzer built from config. The calls it receives are the same either way."""
         from livefix.analysis.engine import Analyzer
         from livefix.decode.decoder import Decoder
         from livefix.framing import Framer
@@ -79,7 +82,7 @@ class Pipeline:
         self.framer = Framer()
         self.decoder = Decoder()
         self.state = StateModel()
-        self.analyzer = Analyzer(config or AnalysisConfig())
+        self.analyzer = Analyzer(config or AnalysisConfig()) if analyzer is None else analyzer
         self._rejects: list[str] = []
         self._seq = 0
         self._mono = 0.0

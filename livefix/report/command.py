@@ -7,10 +7,19 @@ from __future__ import annotations
 import argparse
 import sys
 import threading
+from typing import TYPE_CHECKING
 
 from livefix.report.escape import term_text
 
+if TYPE_CHECKING:
+    from livefix.analysis.config import AnalysisConfig
+    from livefix.pipeline import Snapshot
+    from livefix.sources import Source
+
 FORMATS = ("json", "md", "html")
+# Auto split from this file size: below it the second process's start-up (~0.1 s) eats the gain
+# (measured in bench/bench_replay.py; a 5 MB recording is about 7 minutes at 10 Hz).
+SPLIT_MIN_BYTES = 5_000_000
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -22,13 +31,40 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--ref", help="surveyed point LAT,LON,H (WGS 84, ellipsoidal height)")
     p.add_argument("--profile", help="also judge against a profile (built-in name or .toml); adds junit.xml")
     p.add_argument("--site", default="", help="site description for the report")
+    p.add_argument("--jobs", choices=("auto", "1", "2"), default="auto",
+                   help="processes: 2 runs the analysis beside the decoding on a second core; auto (default) "
+                        f"does so for files of {SPLIT_MIN_BYTES // 1_000_000} MB or more on 2+ cores")
+
+
+def _analyse(src: Source, config: AnalysisConfig, split: bool) -> Snapshot:
+    """The whole stream through one Pipeline; with split, its analysis runs in a second process
+    (same calls, same snapshot: see livefix.parallel)."""
+    from livefix.parallel import AnalysisProcess
+    from livefix.pipeline import Pipeline
+
+    stop = threading.Event()
+    proxy = AnalysisProcess(config) if split else None
+    try:
+        p = Pipeline(config, src.name, analyzer=proxy)
+        for item in src.items(stop):
+            p.feed(item)
+        src.close()
+        p.finish()
+        snap = p.snapshot()
+    except BaseException:
+        if proxy is not None:
+            proxy.kill()  # Ctrl-C or a failure: stop the child now and reap it
+        raise
+    if proxy is not None:
+        proxy.close()
+    return snap
 
 
 def run(args: argparse.Namespace) -> int:
     from livefix.analysis.config import AnalysisConfig
     from livefix.check.command import parse_ref
     from livefix.check.profile import ProfileError, evaluate, load_profile
-    from livefix.pipeline import Pipeline
+    from livefix.parallel import AnalysisProcessError, want_split
     from livefix.report.document import ReceiverRun, build_report, to_json, write_all
     from livefix.sources import SourceError, open_source
 
@@ -42,13 +78,11 @@ def run(args: argparse.Namespace) -> int:
     if not src.finite:
         print(f"livefix report: {term_text(args.file)} is not a file or recording", file=sys.stderr)
         return 2
-    p = Pipeline(AnalysisConfig(ref=ref), src.name)
-    stop = threading.Event()
-    for item in src.items(stop):
-        p.feed(item)
-    src.close()
-    p.finish()
-    snap = p.snapshot()
+    try:
+        snap = _analyse(src, AnalysisConfig(ref=ref), want_split(args.jobs, args.file, SPLIT_MIN_BYTES))
+    except AnalysisProcessError as exc:
+        print(f"livefix report: {term_text(exc)}", file=sys.stderr)
+        return 2
     if args.json:
         sys.stdout.write(to_json(snap.analysis) + "\n")
         return 0
