@@ -126,7 +126,9 @@ class PositionStats:
         sl, so, sa, hd = ep.sigma_lat, ep.sigma_lon, ep.sigma_alt, ep.hdop
         trk.add(t, e, n, u, NAN if sl is None else float(sl), NAN if so is None else float(so),
                 NAN if sa is None else float(sa), NAN if hd is None else float(hd))
-        self._head_add(t, e, n, u, ep.quality)
+        # an unknown quality is kept as -1 ("none" as in Epoch.fix), never as a huge float that
+        # cannot be cast back to int
+        self._head_add(t, e, n, u, ep.quality if ep.quality in FIX_NAMES else -1)
         if self._auto and trk.n == SETTLE_EPOCHS and self._better(fix):
             self._set_ref(*self.anchor.geodetic(*trk.mom.m), source="session_mean")
             self.ref_fix = fix
