@@ -114,16 +114,16 @@ class Framer:
         """The usual chunk, whole CRLF-terminated sentences and nothing else, split at C speed;
         None when anything is unusual (the general scanner then gives the same result)."""
         n = data.count(b"\r\n")
-        if (data.count(b"$") != n or data.count(b"\n") != n or data.count(b"\r") != n
-                or b"!" in data):
+        # n CRLFs, n '$' and no other CR, LF or '!': with the chunk starting with '$' and every CRLF
+        # but the last followed by '$' (the caller checked it ends in CRLF), each line is exactly
+        # one '$...' sentence
+        if (not n or data.count(b"$") != n or data.count(b"\n") != n or data.count(b"\r") != n
+                or b"!" in data or data[:1] != b"$" or data.count(b"\n$") != n - 1):
             return None
         lines = data.split(b"\r\n")
         lines.pop()  # after the final CRLF
         if max(map(len, lines)) > self.max_len:
             return None
-        for ln in lines:
-            if ln[:1] != b"$":
-                return None
         return lines
 
     def finish(self) -> list[bytes]:

@@ -91,6 +91,8 @@ class StateModel:
         self.events_dropped = 0
         self._gsv_unreported = 0
         self._gsv_last_event: float | None = None
+        self._tod_of: object = None  # the last time-of-fix object seen, and its seconds of day
+        self._tod: float | None = None
 
     # -- stream items --------------------------------------------------------------------
     @property
@@ -155,8 +157,12 @@ class StateModel:
         timed = mid in TIMED
         if timed:
             t = msg.fields.get("time")
-            tod = (t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
-                   if isinstance(t, _dt.time) else None)  # tod_seconds, inline (hot path)
+            if t is self._tod_of:  # the decoder shares one time object per text: GGA, RMC, ... alike
+                tod = self._tod
+            else:
+                tod = (t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
+                       if isinstance(t, _dt.time) else None)  # tod_seconds, inline (hot path)
+                self._tod_of, self._tod = t, tod
         else:
             tod = None
         if op is not None:

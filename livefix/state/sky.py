@@ -8,7 +8,6 @@ in order, so a lost line never mixes two epochs' satellites.
 from __future__ import annotations
 
 from collections.abc import Mapping
-from dataclasses import dataclass, field
 from types import MappingProxyType
 
 from livefix.state.epoch import TALKER_SYSTEM, SatObs
@@ -71,12 +70,16 @@ def _int(v: object) -> int | None:
 RawSat = tuple[str, int, int | None, int | None, int | None]  # system, prn, elev, azim, cn0
 
 
-@dataclass(slots=True)
 class _Partial:
-    num_msg: int
-    next_msg: int
-    dead: bool = False  # a broken set: its remaining parts are skipped, not counted again
-    sats: list[RawSat] = field(default_factory=list)
+    """A set being received. `parts` holds each part's satellites as the memoised tuple, so a set
+    that repeats the last one is recognised by comparing a few references, not every satellite."""
+
+    __slots__ = ("num_msg", "next_msg", "dead", "parts")
+
+    def __init__(self, num_msg: int, next_msg: int, dead: bool = False) -> None:
+        self.num_msg, self.next_msg = num_msg, next_msg
+        self.dead = dead  # a broken set: its remaining parts are skipped, not counted again
+        self.parts: list[tuple[RawSat, ...]] = []
 
 
 class GsvAssembler:
@@ -86,7 +89,8 @@ class GsvAssembler:
 
     def __init__(self) -> None:
         self._pending: dict[tuple[str, str], _Partial] = {}
-        self._last: dict[tuple[str, str], list[RawSat]] = {}  # last completed set per group
+        # last completed set per group: (its parts, its satellites)
+        self._last: dict[tuple[str, str], tuple[list[tuple[RawSat, ...]], list[RawSat]]] = {}
         self.broken = 0  # sets discarded (missing part, restart, numMsg change, stray parts)
         self.unmapped = 0  # listed PRNs outside every known range
 
@@ -116,18 +120,21 @@ class GsvAssembler:
         if not p.dead:
             if hit is None:
                 hit = self._part(talker, f, key, num, part)
-            p.sats.extend(hit[0])
+            p.parts.append(hit[0])
             self.unmapped += hit[1]
         if part == num:
             if p.dead:
                 return key, None, n
             last = self._last.get(key)
-            if last == p.sats:  # the same set as last time: hand back the same list (cheap to compare)
-                return key, last, n
-            if len(self._last) >= self.MAX_GROUPS:
+            if last is not None and last[0] == p.parts:  # the same parts: the same set as last time
+                return key, last[1], n
+            sats = [s for part_sats in p.parts for s in part_sats]
+            if last is not None and last[1] == sats:  # same satellites, split differently
+                sats = last[1]
+            elif len(self._last) >= self.MAX_GROUPS:
                 self._last.clear()
-            self._last[key] = p.sats
-            return key, p.sats, n
+            self._last[key] = (p.parts, sats)  # the same list as long as the set repeats (Sky)
+            return key, sats, n
         p.next_msg = part + 1
         if len(self._pending) >= self.MAX_GROUPS:
             self.broken += int(not self._pending.pop(next(iter(self._pending))).dead)
