@@ -93,3 +93,24 @@ def test_pipeline_counts_every_repeated_line() -> None:
     c = p.counters()
     assert c.lines == c.decoded == len(_stream())
     assert c.by_talker_type["GPGSV"] == sum(b"GPGSV" in ln for _, ln in _stream())
+
+
+def test_assembler_hands_back_one_list_while_a_set_repeats() -> None:
+    # Common practice: receivers repeat a set unchanged for a second at 10-20 Hz; the same list
+    # object lets the sky keep its sorted layout; a changed C/N0 makes a new list.
+    from livefix.state.sky import GsvAssembler
+
+    dec, a = Decoder(), GsvAssembler()
+    p1, p2, _ = _burst("120000.00")[2:5]
+    _, first, _ = (a.add("GP", dec.decode(p1).fields), a.add("GP", dec.decode(p2).fields))[1]
+    _, again, broken = (a.add("GP", dec.decode(p1).fields), a.add("GP", dec.decode(p2).fields))[1]
+    assert again is first and broken == 0 and len(first) == 8
+    # the same eight satellites split 4 + 3 + 1 (unusual, but a set is its satellites)
+    parts = [line("GPGSV,3,1,08,01,40,083,46,02,17,308,41,12,07,344,39,14,22,228,45,1"),
+             line("GPGSV,3,2,08,15,55,120,44,17,30,200,,22,10,045,,1"),
+             line("GPGSV,3,3,08,24,70,300,48,1")]
+    _, resplit, _ = [a.add("GP", dec.decode(x).fields) for x in parts][-1]
+    assert resplit is first
+    _, changed, _ = (a.add("GP", dec.decode(_burst("120000.00", cno=40)[2]).fields),
+                     a.add("GP", dec.decode(p2).fields))[1]
+    assert changed is not first and changed[0][4] == 40 and changed[1:] == first[1:]
