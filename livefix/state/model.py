@@ -259,7 +259,7 @@ class StateModel:
         op, self._open = self._open, None
         assert op is not None
         bt = op.by_type
-        gga, gns, rmc, gll = (bt.get(k) for k in POSITION_FROM)
+        gga, gns, rmc, gll = bt.get("GGA"), bt.get("GNS"), bt.get("RMC"), bt.get("GLL")  # POSITION_FROM
         gsa, gst, vtg = bt.get("GSA") or {}, bt.get("GST") or {}, bt.get("VTG") or {}
         lat = lon = None
         for src in (gga, gns, rmc, gll):
