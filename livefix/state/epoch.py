@@ -29,7 +29,9 @@ class SatObs:
     azim: int | None  # degrees true
     cn0: int | None  # dB-Hz; None = in view but not tracked
     used: bool  # listed in GSA as used in the solution
-    last_seen_mono: float = 0.0  # host time this satellite was last listed
+    # host time this satellite's set was last listed: set in StateModel.sky() (snapshots); 0.0 in
+    # Epoch.sats, which stays one tuple object while only these times change
+    last_seen_mono: float = 0.0
 
     @property
     def key(self) -> tuple[str, int, str]:
