@@ -159,10 +159,17 @@ def _children(pid: int) -> list[int]:
     return out
 
 
+def _default_sigint() -> None:
+    signal.signal(signal.SIGINT, signal.SIG_DFL)
+
+
 def _start_on_stdin(data: bytes) -> tuple[subprocess.Popen, int]:
     """`report - --json --jobs 2` with the first part of data written; returns (front, child pid)."""
+    # A shell without job control starts background jobs with SIGINT ignored, and children
+    # inherit that; the front must see Ctrl-C as a terminal user's process would.
     front = subprocess.Popen([sys.executable, "-m", "livefix", "report", "-", "--json", "--jobs", "2"], cwd=ROOT,
-                             stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.PIPE)
+                             stdin=subprocess.PIPE, stdout=subprocess.PIPE, stderr=subprocess.PIPE,
+                             preexec_fn=_default_sigint)
     assert front.stdin is not None
     front.stdin.write(data[: len(data) // 3])
     front.stdin.flush()

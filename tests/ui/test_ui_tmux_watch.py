@@ -24,8 +24,9 @@ pytestmark = [pytest.mark.skipif(shutil.which("tmux") is None, reason="tmux not 
 REC = RECORDINGS / "rooftop-5min.lfr"
 
 
-def tmux(*args: str) -> str:
-    return subprocess.run(["tmux", *args], capture_output=True, text=True, timeout=5).stdout
+def tmux(sock: str, *args: str) -> str:
+    """tmux on a server of this test's own (-L): no race with another test's server exiting."""
+    return subprocess.run(["tmux", "-L", sock, *args], capture_output=True, text=True, timeout=5).stdout
 
 
 @pytest.fixture(scope="module")
@@ -43,28 +44,28 @@ def test_watch_in_tmux_shows_the_recordings_figures(term: str, expected: tuple[s
     # COLUMNS/LINES from the test runner would override the pane size inside Textual
     env = f"env -u COLUMNS -u LINES TERM={term} LANG=C.UTF-8 XDG_CONFIG_HOME={tmp_path}"
     cmd = f"cd {ROOT} && {env} {sys.executable} -m livefix watch {REC} --speed max; sleep 20"
-    tmux("new-session", "-d", "-s", name, "-x", "160", "-y", "50", cmd)
+    tmux(name, "new-session", "-d", "-s", name, "-x", "160", "-y", "50", cmd)
     try:
         deadline, pane = time.monotonic() + 12, ""
         while time.monotonic() < deadline:
             time.sleep(0.3)
-            pane = tmux("capture-pane", "-p", "-t", name)
+            pane = tmux(name, "capture-pane", "-p", "-t", name)
             if "END OF DATA" in pane and "TTFF" in pane:
                 time.sleep(0.5)  # one more repaint after the end of the data
-                pane = tmux("capture-pane", "-p", "-t", name)
+                pane = tmux(name, "capture-pane", "-p", "-t", name)
                 break
         assert "END OF DATA" in pane, pane
         tot, ttff = expected
         assert f"all {tot}" in pane
         assert re.search(rf"TTFF\s+{re.escape(ttff)}", pane)
         assert "RTK FIXED" in pane and "Satellites" in pane
-        styled = tmux("capture-pane", "-p", "-e", "-t", name)
+        styled = tmux(name, "capture-pane", "-p", "-e", "-t", name)
         # TERM=xterm is a 16-colour terminal (Textual picks "standard"); *-256color gets 38;5;N
         assert ("38;5;" in styled) is (term == "xterm-256color")
-        tmux("send-keys", "-t", name, "q")
+        tmux(name, "send-keys", "-t", name, "q")
         deadline = time.monotonic() + 5
-        while time.monotonic() < deadline and "livefix" in tmux("list-panes", "-t", name, "-F",
+        while time.monotonic() < deadline and "livefix" in tmux(name, "list-panes", "-t", name, "-F",
                                                                "#{pane_current_command}"):
             time.sleep(0.2)
     finally:
-        tmux("kill-session", "-t", name)
+        tmux(name, "kill-server")
