@@ -187,10 +187,10 @@ class Decoder:
             d = _new(Decoded)
             _set_talker(d, hit[1])
             _set_id(d, hit[2])
-            _set_fields(d, fields)
+            # a cached value is shared from now on: read-only, so no consumer can change it
+            _set_fields(d, fields if lines is None else _ReadOnly(fields))
             _set_prop(d, False)
-            if lines is not None:  # shared from now on: read-only, so no consumer can change it
-                _set_fields(d, _ReadOnly(fields))
+            if lines is not None:
                 lines[line] = (hdr, d, gsv)
             return d
         except Exception as err:  # last line of defence: count it, keep going

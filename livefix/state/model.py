@@ -133,26 +133,10 @@ class StateModel:
         if msg.proprietary:
             return []
         mid = msg.msg_id
-        if mid == "GSV":  # most lines of a burst: the untimed path below, inline
-            op, out = self._open, []
-            if op is not None and op.tod is None and mono - op.mono > UNTIMED_GAP_S:
-                out.append(self._close())
-                op = None
-            if op is None:
-                op = self._open = _Open(mono, wall, None)
-            if len(op.sentences) < MAX_SENTENCES:
-                op.sentences.append(mid)
-            group, sats, broken = self._gsv.add(msg.talker, msg.fields)
-            if sats is not None:
-                self._sky.replace(group, sats, mono)
-            if broken:
-                self._gsv_unreported += broken
-                self._gsv_event(mono, wall)
-            return out
         if mid == "TXT":  # receiver text (antenna status, boot banners): an event, rate-limited
             self._on_txt(msg, mono, wall)
             return []
-        out = []
+        out: list[Epoch] = []
         op = self._open
         timed = mid in TIMED
         if timed:
@@ -243,6 +227,14 @@ class StateModel:
                 _GSA_BY_VALUE.clear()
             _GSA_BY_VALUE[id(f)] = (f, hit)  # holding f keeps its id unique
         op.used.update(hit)
+
+    def _on_gsv(self, op: _Open, msg: Decoded, mono: float) -> None:
+        group, sats, broken = self._gsv.add(msg.talker, msg.fields)
+        if sats is not None:
+            self._sky.replace(group, sats, mono)
+        if broken:
+            self._gsv_unreported += broken
+            self._gsv_event(mono, self._wall)
 
     def _gsv_event(self, mono: float, wall: float, force: bool = False) -> None:
         if not self._gsv_unreported:
@@ -364,6 +356,6 @@ def _quality(gga: dict | None, src: dict) -> int:
 
 
 _HANDLERS = {
-    "GSA": StateModel._on_gsa, "RMC": StateModel._on_dated,
+    "GSA": StateModel._on_gsa, "GSV": StateModel._on_gsv, "RMC": StateModel._on_dated,
     "ZDA": StateModel._on_dated,
 }
