@@ -106,3 +106,47 @@ def test_leap_second_line_through_real_decoder() -> None:
     c = p.counters()
     assert c.lines == 3 and c.decoded + c.malformed == 3
     assert p.state.epochs >= 2
+
+
+def test_no_reference_cycles_once_warm() -> None:
+    """Batch runs collect garbage sparsely (livefix.pipeline.BATCH_GC_THRESHOLD), which is only safe
+    while the pipeline leaves no cycles behind: after one warm-up pass (lazy imports build their own),
+    a second pass over each demo recording with the collector off leaves nothing for it to free."""
+    import gc
+    import threading
+    from pathlib import Path
+
+    from livefix.sources import open_source
+
+    def one_pass(path: Path) -> None:
+        src = open_source(str(path), speed=None)
+        p = Pipeline(None, src.name)
+        for item in src.items(threading.Event()):
+            p.feed(item)
+        src.close()
+        p.finish()
+        p.snapshot()
+
+    recordings = sorted((Path(__file__).resolve().parents[1] / "recordings").glob("*.lfr"))
+    assert len(recordings) >= 3
+    for path in recordings:
+        one_pass(path)
+        gc.collect()
+        gc.disable()
+        try:
+            one_pass(path)
+            found = gc.collect()
+        finally:
+            gc.enable()
+        assert found == 0, (path.name, found)
+
+
+def test_batch_gc_restores_thresholds() -> None:
+    import gc
+
+    from livefix.pipeline import BATCH_GC_THRESHOLD, batch_gc
+
+    before = gc.get_threshold()
+    with batch_gc():
+        assert gc.get_threshold() == BATCH_GC_THRESHOLD
+    assert gc.get_threshold() == before

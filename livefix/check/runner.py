@@ -124,32 +124,38 @@ class CheckRun:
         return self._report()
 
     def _run_files(self) -> None:
+        from livefix.pipeline import batch_gc
+
+        with batch_gc():
+            for rx in self.rxs:
+                self._run_file(rx)
+                if not self.complete:
+                    break
+
+    def _run_file(self, rx: _Rx) -> None:
         from livefix.pipeline import Pipeline
 
         limit = self.o.duration_s
-        for rx in self.rxs:
-            rx.pipeline = p = Pipeline(self.config, rx.source.name)
-            first: float | None = None
-            stop = threading.Event()
-            for k, item in enumerate(rx.source.items(stop)):
-                if first is None:
-                    first = item.mono
-                if limit is not None and item.mono - first > limit:
-                    break
-                p.feed(item)
-                if k % 2000 == 0:
-                    rx.snap = p.snapshot()
-                    self._tick(item.mono - first, limit)
-                    if self.o.stop.is_set():
-                        self.complete, self.reason = False, self.reason or "stopped by the user"
-                        break
-            stop.set()
-            rx.source.close()
-            p.finish()
-            rx.snap = p.snapshot()
-            rx.results = evaluate(self.o.profile, rx.snap.analysis)
-            if not self.complete:
+        rx.pipeline = p = Pipeline(self.config, rx.source.name)
+        first: float | None = None
+        stop = threading.Event()
+        for k, item in enumerate(rx.source.items(stop)):
+            if first is None:
+                first = item.mono
+            if limit is not None and item.mono - first > limit:
                 break
+            p.feed(item)
+            if k % 2000 == 0:
+                rx.snap = p.snapshot()
+                self._tick(item.mono - first, limit)
+                if self.o.stop.is_set():
+                    self.complete, self.reason = False, self.reason or "stopped by the user"
+                    break
+        stop.set()
+        rx.source.close()
+        p.finish()
+        rx.snap = p.snapshot()
+        rx.results = evaluate(self.o.profile, rx.snap.analysis)
 
     def _run_live(self) -> None:
         from livefix.check.ttff import TTFFCycler

@@ -40,17 +40,18 @@ def _analyse(src: Source, config: AnalysisConfig, split: bool) -> Snapshot:
     """The whole stream through one Pipeline; with split, its analysis runs in a second process
     (same calls, same snapshot: see livefix.parallel)."""
     from livefix.parallel import AnalysisProcess
-    from livefix.pipeline import Pipeline
+    from livefix.pipeline import Pipeline, batch_gc
 
     stop = threading.Event()
     proxy = AnalysisProcess(config) if split else None
     try:
-        p = Pipeline(config, src.name, analyzer=proxy)
-        for item in src.items(stop):
-            p.feed(item)
-        src.close()
-        p.finish()
-        snap = p.snapshot()
+        with batch_gc():
+            p = Pipeline(config, src.name, analyzer=proxy)
+            for item in src.items(stop):
+                p.feed(item)
+            src.close()
+            p.finish()
+            snap = p.snapshot()
     except BaseException:
         if proxy is not None:
             proxy.kill()  # Ctrl-C or a failure: stop the child now and reap it
