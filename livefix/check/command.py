@@ -40,11 +40,15 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--record-dir", metavar="DIR", help="where live sources are recorded (default: the report dir)")
     p.add_argument("--speed", type=float, default=None, help="replay/simulation speed factor (files default: "
                    "as fast as possible)")
+    p.add_argument("--jobs", choices=("auto", "1", "2"), default="auto",
+                   help="for files judged as fast as possible: 2 runs the analysis on a second core; auto "
+                        "(default) does so for files of 5 MB or more on 2+ cores (see livefix report)")
 
 
 def run(args: argparse.Namespace) -> int:
     from livefix.check.profile import ProfileError, load_profile
     from livefix.check.runner import CheckOptions, CheckRun, name_sources
+    from livefix.parallel import AnalysisProcessError
     from livefix.sources import SourceError
     from livefix.timefmt import parse_duration
 
@@ -60,7 +64,7 @@ def run(args: argparse.Namespace) -> int:
             metrics = parse_listen(args.metrics)
         opts = CheckOptions(sources=name_sources(args.sources), profile=profile, duration_s=duration, ref=ref,
                             report_dir=args.report, record_dir=args.record_dir, site=args.site, notes=args.notes,
-                            metrics=metrics, speed=args.speed,
+                            metrics=metrics, speed=args.speed, jobs=args.jobs,
                             command="livefix check " + " ".join(shlex.quote(a) for a in sys.argv[2:]))
         check = CheckRun(opts)
     except (ProfileError, SourceError, ValueError, OSError) as exc:
@@ -72,7 +76,7 @@ def run(args: argparse.Namespace) -> int:
         old = signal.signal(signal.SIGINT, lambda *_: stop.set())
     try:
         report = check.run()
-    except (SourceError, OSError) as exc:
+    except (SourceError, OSError, AnalysisProcessError) as exc:
         print(f"livefix check: could not run: {term_text(exc)}", file=err)
         return 2
     finally:

@@ -50,6 +50,7 @@ class CheckOptions:
     notes: str = ""
     metrics: tuple[str, int] | None = None
     speed: float | None = None
+    jobs: str = "1"  # files at full speed only: "2" or "auto" may run the analysis in a second process
     stop: threading.Event = field(default_factory=threading.Event)
     progress: TextIO | None = None  # None: sys.stderr at the time of printing
     command: str = ""
@@ -133,28 +134,43 @@ class CheckRun:
                     break
 
     def _run_file(self, rx: _Rx) -> None:
+        """One file through a Pipeline on this thread; with a split its analysis runs in a second
+        process (livefix.parallel: same calls, same snapshot). Progress snapshots are taken at most
+        once per PROGRESS_S, since each one waits for the analysis to catch up."""
+        from livefix.parallel import AnalysisProcess, want_split
         from livefix.pipeline import Pipeline
+        from livefix.report.command import SPLIT_MIN_BYTES
 
         limit = self.o.duration_s
-        rx.pipeline = p = Pipeline(self.config, rx.source.name)
-        first: float | None = None
-        stop = threading.Event()
-        for k, item in enumerate(rx.source.items(stop)):
-            if first is None:
-                first = item.mono
-            if limit is not None and item.mono - first > limit:
-                break
-            p.feed(item)
-            if k % 2000 == 0:
-                rx.snap = p.snapshot()
-                self._tick(item.mono - first, limit)
-                if self.o.stop.is_set():
-                    self.complete, self.reason = False, self.reason or "stopped by the user"
+        split = self.o.speed is None and want_split(self.o.jobs, rx.spec, SPLIT_MIN_BYTES)
+        proxy = AnalysisProcess(self.config) if split else None
+        try:
+            rx.pipeline = p = Pipeline(self.config, rx.source.name, analyzer=proxy)
+            first: float | None = None
+            stop = threading.Event()
+            for k, item in enumerate(rx.source.items(stop)):
+                if first is None:
+                    first = item.mono
+                if limit is not None and item.mono - first > limit:
                     break
-        stop.set()
-        rx.source.close()
-        p.finish()
-        rx.snap = p.snapshot()
+                p.feed(item)
+                if k % 2000 == 0:
+                    if time.monotonic() - self._last_progress >= PROGRESS_S:
+                        rx.snap = p.snapshot()
+                        self._tick(item.mono - first, limit)
+                    if self.o.stop.is_set():
+                        self.complete, self.reason = False, self.reason or "stopped by the user"
+                        break
+            stop.set()
+            rx.source.close()
+            p.finish()
+            rx.snap = p.snapshot()
+        except BaseException:
+            if proxy is not None:
+                proxy.kill()  # a failure: stop the child now and reap it
+            raise
+        if proxy is not None:
+            proxy.close()
         rx.results = evaluate(self.o.profile, rx.snap.analysis)
 
     def _run_live(self) -> None:

@@ -87,3 +87,18 @@ def test_report_command(tmp_path, livefix):
     assert r.returncode == 0 and (tmp_path / "report.md").exists() and not (tmp_path / "report.html").exists()
     doc_md = (tmp_path / "report.md").read_text()
     assert "no verdict" in doc_md and "not a survey certificate" in doc_md
+
+
+def test_jobs_2_gives_the_same_report(tmp_path, livefix):
+    """`check FILE --jobs 2` runs the analysis in a second process (livefix.parallel); the reference
+    is the single-process check itself: same verdicts, same measured values, same analysis."""
+    docs = []
+    for jobs in ("1", "2"):
+        out = tmp_path / jobs
+        r = livefix("check", f"roof={RECORDINGS / 'rooftop-5min.lfr'}", f"court={RECORDINGS / 'building-5min.lfr'}",
+                    "--profile", "soak", "--jobs", jobs, "--report", str(out))
+        assert r.returncode in (0, 1), r.stdout + r.stderr
+        docs.append(json.loads((out / "report.json").read_text()))
+    one, two = docs
+    assert one["verdict"] == two["verdict"]
+    assert one["receivers"] == two["receivers"]
