@@ -35,10 +35,6 @@ def link_to(path: str, target: str) -> None:
     os.replace(tmp, path)
 
 
-
-
-
-
 def test_unplug_and_replug_through_pty(tmp_path) -> None:
     dev = str(tmp_path / "gnss0")
     m1, s1 = new_pty()

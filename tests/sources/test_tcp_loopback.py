@@ -18,10 +18,6 @@ from livefix.sources.tcp import TcpSource, parse_tcp_spec
 GGA = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47\r\n"
 
 
-
-
-
-
 def listener() -> socket.socket:
     srv = socket.socket()
     srv.setsockopt(socket.SOL_SOCKET, socket.SO_REUSEADDR, 1)
