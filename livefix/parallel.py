@@ -33,6 +33,8 @@ import struct
 import subprocess
 import sys
 import time
+from collections.abc import Iterator
+from contextlib import contextmanager
 from operator import attrgetter
 from pathlib import Path
 from typing import Any
@@ -46,6 +48,9 @@ STALL_S = 120.0  # no progress writing to / reading from a live child for this l
 TICK_S = 0.5  # how often a wait looks at the child
 PROTOCOL = 5
 GZIP_RATIO = 9  # NMEA recordings compress about 9:1 (measured on the demo recordings)
+# Auto split from this file size: below it the second process's start-up (~0.1 s) eats the gain
+# (measured in bench/bench_replay.py; a 5 MB recording is about 7 minutes at 10 Hz).
+SPLIT_MIN_BYTES = 5_000_000
 PIPE_BYTES = 1 << 20  # front -> child buffer: bounded, and hides the child's ~0.2 s start-up
 
 # Record kinds inside a batch (first element of each record).
@@ -382,8 +387,23 @@ def content_bytes(path: str) -> int:
     return st.st_size * (GZIP_RATIO if gz else 1)
 
 
-def want_split(jobs: str, path: str, min_bytes: int) -> bool:
+def want_split(jobs: str, path: str, min_bytes: int = SPLIT_MIN_BYTES) -> bool:
     """--jobs auto|1|2: auto splits only a file of at least min_bytes of content on >= 2 usable CPUs."""
     if jobs != "auto":
         return jobs == "2"
     return usable_cpus() >= 2 and content_bytes(path) >= min_bytes
+
+
+@contextmanager
+def analyzer_for(config: AnalysisConfig, split: bool) -> Iterator[AnalysisProcess | None]:
+    """The analyzer to hand a Pipeline: None (it builds its own) or a started analysis process,
+    closed when the block ends and killed and reaped if it ends by an error or Ctrl-C."""
+    proxy = AnalysisProcess(config) if split else None
+    try:
+        yield proxy
+    except BaseException:
+        if proxy is not None:
+            proxy.kill()
+        raise
+    if proxy is not None:
+        proxy.close()

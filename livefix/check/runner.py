@@ -137,15 +137,13 @@ class CheckRun:
         """One file through a Pipeline on this thread; with a split its analysis runs in a second
         process (livefix.parallel: same calls, same snapshot). Progress snapshots are taken at most
         once per PROGRESS_S, since each one waits for the analysis to catch up."""
-        from livefix.parallel import AnalysisProcess, want_split
+        from livefix.parallel import analyzer_for, want_split
         from livefix.pipeline import Pipeline
-        from livefix.report.command import SPLIT_MIN_BYTES
 
         limit = self.o.duration_s
-        split = self.o.speed is None and want_split(self.o.jobs, rx.spec, SPLIT_MIN_BYTES)
-        proxy = AnalysisProcess(self.config) if split else None
-        try:
-            rx.pipeline = p = Pipeline(self.config, rx.source.name, analyzer=proxy)
+        split = self.o.speed is None and want_split(self.o.jobs, rx.spec)
+        with analyzer_for(self.config, split) as analyzer:
+            rx.pipeline = p = Pipeline(self.config, rx.source.name, analyzer=analyzer)
             first: float | None = None
             stop = threading.Event()
             for k, item in enumerate(rx.source.items(stop)):
@@ -155,7 +153,7 @@ class CheckRun:
                     break
                 p.feed(item)
                 if k % 2000 == 0:
-                    if time.monotonic() - self._last_progress >= PROGRESS_S:
+                    if self._progress_due():
                         rx.snap = p.snapshot()
                         self._tick(item.mono - first, limit)
                     if self.o.stop.is_set():
@@ -165,12 +163,6 @@ class CheckRun:
             rx.source.close()
             p.finish()
             rx.snap = p.snapshot()
-        except BaseException:
-            if proxy is not None:
-                proxy.kill()  # a failure: stop the child now and reap it
-            raise
-        if proxy is not None:
-            proxy.close()
         rx.results = evaluate(self.o.profile, rx.snap.analysis)
 
     def _run_live(self) -> None:
@@ -215,11 +207,13 @@ class CheckRun:
         for rx in self.rxs:
             rx.results = evaluate(prof, rx.snap.analysis) if rx.snap is not None else evaluate(prof, {})
 
+    def _progress_due(self) -> bool:
+        return time.monotonic() - self._last_progress >= PROGRESS_S
+
     def _tick(self, elapsed: float, limit: float | None) -> None:
-        now = time.monotonic()
-        if now - self._last_progress < PROGRESS_S:
+        if not self._progress_due():
             return
-        self._last_progress = now
+        self._last_progress = time.monotonic()
         parts = [f"{_hms(elapsed)}" + (f" / {_hms(limit)} ({_hms(max(0.0, limit - elapsed))} left)" if limit else "")]
         for rx in self.rxs:
             snap = rx.latest()

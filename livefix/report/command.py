@@ -17,9 +17,6 @@ if TYPE_CHECKING:
     from livefix.sources import Source
 
 FORMATS = ("json", "md", "html")
-# Auto split from this file size: below it the second process's start-up (~0.1 s) eats the gain
-# (measured in bench/bench_replay.py; a 5 MB recording is about 7 minutes at 10 Hz).
-SPLIT_MIN_BYTES = 5_000_000
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -33,32 +30,23 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--site", default="", help="site description for the report")
     p.add_argument("--jobs", choices=("auto", "1", "2"), default="auto",
                    help="processes: 2 runs the analysis beside the decoding on a second core; auto (default) "
-                        f"does so for files of {SPLIT_MIN_BYTES // 1_000_000} MB or more on 2+ cores")
+                        "does so for files of 5 MB or more on 2+ cores")  # livefix.parallel.SPLIT_MIN_BYTES
 
 
 def _analyse(src: Source, config: AnalysisConfig, split: bool) -> Snapshot:
     """The whole stream through one Pipeline; with split, its analysis runs in a second process
     (same calls, same snapshot: see livefix.parallel)."""
-    from livefix.parallel import AnalysisProcess
+    from livefix.parallel import analyzer_for
     from livefix.pipeline import Pipeline, batch_gc
 
     stop = threading.Event()
-    proxy = AnalysisProcess(config) if split else None
-    try:
-        with batch_gc():
-            p = Pipeline(config, src.name, analyzer=proxy)
-            for item in src.items(stop):
-                p.feed(item)
-            src.close()
-            p.finish()
-            snap = p.snapshot()
-    except BaseException:
-        if proxy is not None:
-            proxy.kill()  # Ctrl-C or a failure: stop the child now and reap it
-        raise
-    if proxy is not None:
-        proxy.close()
-    return snap
+    with analyzer_for(config, split) as analyzer, batch_gc():
+        p = Pipeline(config, src.name, analyzer=analyzer)
+        for item in src.items(stop):
+            p.feed(item)
+        src.close()
+        p.finish()
+        return p.snapshot()
 
 
 def run(args: argparse.Namespace) -> int:
@@ -80,7 +68,7 @@ def run(args: argparse.Namespace) -> int:
         print(f"livefix report: {term_text(args.file)} is not a file or recording", file=sys.stderr)
         return 2
     try:
-        snap = _analyse(src, AnalysisConfig(ref=ref), want_split(args.jobs, args.file, SPLIT_MIN_BYTES))
+        snap = _analyse(src, AnalysisConfig(ref=ref), want_split(args.jobs, args.file))
     except AnalysisProcessError as exc:
         print(f"livefix report: {term_text(exc)}", file=sys.stderr)
         return 2
