@@ -7,7 +7,7 @@ runs it on the analysis thread.
 Stage interfaces it relies on:
   livefix.framing.Framer:   feed(data: bytes) -> list[bytes]  (complete sentences, no terminator)
                             finish() -> list[bytes]; counters: FrameCounters(lines, bytes, junk_bytes,
-                            overlong)
+                            overlong, binary_frames, binary_bytes)
   livefix.decode.Decoder:   decode(line: bytes) -> Decoded | Rejected; counters: DecodeCounters
   livefix.state.StateModel: on_link(LinkEvent), on_marker(Marker), on_chunk(mono, wall),
                             on_sentence(Decoded, mono, wall) -> list[Epoch] (completed epochs),
@@ -47,6 +47,8 @@ class StreamCounters:
     by_talker_type: dict[str, int] = field(default_factory=dict)
     rejected_by_type: dict[str, int] = field(default_factory=dict)
     recent_rejects: tuple[str, ...] = ()  # last few refused lines, as repr text, for display
+    binary_frames: int = 0  # verified binary frames skipped by the framer (livefix.binframe)
+    binary_bytes: int = 0
 
 
 @dataclass(frozen=True, slots=True)
@@ -170,7 +172,8 @@ class Pipeline:
             bytes=f.bytes, lines=f.lines, junk_bytes=f.junk_bytes, overlong=f.overlong,
             decoded=d.decoded, bad_checksum=d.bad_checksum, malformed=d.malformed, unknown=d.unknown,
             proprietary=d.proprietary, by_type=dict(d.by_type), by_talker_type=dict(d.by_talker_type),
-            rejected_by_type=dict(d.rejected_by_type), recent_rejects=tuple(self._rejects))
+            rejected_by_type=dict(d.rejected_by_type), recent_rejects=tuple(self._rejects),
+            binary_frames=f.binary_frames, binary_bytes=f.binary_bytes)
 
     def snapshot(self, recording: str | None = None, recording_error: str | None = None) -> Snapshot:
         self._seq += 1

@@ -9,7 +9,14 @@ Receivers differ: some solve with a single clock, some apply another elevation m
 C/N0, so an epoch counts as a disagreement only when the reported HDOP or PDOP differs from BOTH
 our per-system-clock and our single-clock values by more than 20 % and more than 0.3 (common
 practice thresholds; a persistent disagreement points at a different satellite set or mask).
+Which clock model the receiver states its DOP in is decided by the session itself: each compared
+epoch votes for the model closer to the reported values, and `computed` shows the winner
+(per-system clocks when there is nothing to compare). Real multi-GNSS receivers mostly state DOP
+with one clock (e.g. a GPS+GLONASS+Galileo+BeiDou log with one GLONASS satellite used: 1.31 single
+clock, 2.03 per-system clocks, 1.3 reported); both models' figures are in the snapshot.
 Session medians come from a log-spaced histogram (0.5 % bins): bounded memory, deterministic.
+Satellite numbers that fit no NMEA block (Epoch.unknown_ids) cannot be placed in the geometry:
+they are counted and listed here, never dropped silently.
 """
 
 from __future__ import annotations
@@ -24,6 +31,7 @@ from livefix.state.sky import sats_token
 KEYS = ("gdop", "pdop", "hdop", "vdop", "tdop")
 REL_TOL = 0.20
 ABS_TOL = 0.3
+MAX_UNKNOWN_IDS = 64  # distinct unknown satellite labels listed in the snapshot
 
 
 class LogHistogram:
@@ -87,11 +95,15 @@ class DopStats:
 
     def reset(self) -> None:
         self.hist_rep = {k: LogHistogram() for k in ("gdop", "pdop", "hdop", "vdop")}
-        self.hist_calc = {k: LogHistogram() for k in KEYS}
+        self.hist_calc = {k: LogHistogram() for k in KEYS}  # per-system receiver clocks
+        self.hist_single = {k: LogHistogram() for k in KEYS}  # one receiver clock
+        self.votes = {"single": 0, "per_system": 0}  # compared epochs closer to each clock model
+        self.unknown_epochs = 0  # epochs listing satellite numbers no NMEA block fits
+        self.unknown_ids: set[str] = set()
+        self.current_used_listed = 0  # used satellites this epoch, with or without az/el
         self.current_rep: dict[str, float | None] = {}
         self.current_calc: dict[str, float] | None = None
         self._single: dict[str, float] | None = None
-        self._single_of: tuple[list[float], list[float]] | None = None  # az, el still to solve
         self.current_n = 0
         self.compared = 0
         self.disagreements = 0
@@ -108,7 +120,7 @@ class DopStats:
         self._calc_bins: list[tuple[LogHistogram, int]] = []
         self._rep_run = 0
         self._calc_run = 0
-        self._verdict: tuple[bool, bool] | None = None  # (compared, disagree) for the current inputs
+        self._verdict: tuple[bool, bool, int] | None = None  # (compared, disagree, vote) for the inputs
 
     def on_epoch(self, ep: Epoch) -> None:
         sats, used = ep.sats, ep.used_prns
@@ -117,6 +129,7 @@ class DopStats:
             if tok is None or tok is not self._tok or used != self._used:
                 self._geo = used_geometry(ep)
             self._sats, self._used, self._tok = sats, used, tok
+            self.current_used_listed = len({(s.system, s.prn) for s in sats if s.used} | set(used))
             if self._geo != self._cache_key:  # az/el are whole degrees and change slowly: cache
                 self._new_geometry(self._geo)
         pdop, hdop, vdop = ep.pdop, ep.hdop, ep.vdop
@@ -140,7 +153,13 @@ class DopStats:
             self.compared += 1
             if v[1]:
                 self.disagreements += 1
+            if v[2]:
+                self.votes["single" if v[2] > 0 else "per_system"] += 1
         self.disagreeing = v[1]
+        if ep.unknown_ids:
+            self.unknown_epochs += 1
+            if len(self.unknown_ids) < MAX_UNKNOWN_IDS:
+                self.unknown_ids.update(ep.unknown_ids)
 
     def _new_geometry(self, geo: tuple) -> None:
         self._verdict = None
@@ -151,31 +170,36 @@ class DopStats:
             az = [g[0] for g in geo]
             el = [g[1] for g in geo]
             self.current_calc = geometry_dop(az, el, [g[2] for g in geo])
-            self._single, self._single_of = None, (az, el)  # solved when first asked for
+            single_too = len({g[2] for g in geo}) > 1  # one constellation: both models agree
+            self._single = geometry_dop(az, el) if single_too else self.current_calc
         else:
             self.current_calc = self._single = None
-            self._single_of = None
-        calc = self.current_calc
-        self._calc_bins = [] if calc is None else [
-            (self.hist_calc[k], b) for k in KEYS if (b := self.hist_calc[k].bin(calc[k])) is not None]
+        self._calc_bins = [(h[k], b) for h, calc in ((self.hist_calc, self.current_calc),
+                                                    (self.hist_single, self._single)) if calc is not None
+                           for k in KEYS if (b := h[k].bin(calc[k])) is not None]
 
     @property
     def current_single(self) -> dict[str, float] | None:
-        """DOP of the same satellites with one receiver clock; needed only when the reported
-        value is off the per-system-clock one, and for the snapshot."""
-        if self._single_of is not None:
-            self._single = geometry_dop(*self._single_of)
-            self._single_of = None
+        """DOP of the same satellites with one receiver clock."""
         return self._single
 
-    def _judge(self) -> tuple[bool, bool]:
-        """Whether this epoch is compared, and whether it disagrees (pure in rep and calc)."""
-        calc, rep = self.current_calc, self.current_rep
+    @property
+    def clock_model(self) -> str:
+        """The clock model the reported DOPs follow, by the session's votes (ties: per-system)."""
+        return "single" if self.votes["single"] > self.votes["per_system"] else "per_system"
+
+    def _judge(self) -> tuple[bool, bool, int]:
+        """Whether this epoch is compared, whether it disagrees, and its clock-model vote
+        (+1 single, -1 per-system, 0 none); pure in rep and calc."""
+        calc, rep, single = self.current_calc, self.current_rep, self._single
         if calc is None or (rep["hdop"] is None and rep["pdop"] is None):
-            return (False, False)
-        bad = any(_differs(rep[k], calc, k) and _differs(rep[k], self.current_single or calc, k)
-                  for k in ("hdop", "pdop"))
-        return (True, bad)
+            return (False, False, 0)
+        single = single or calc
+        bad = any(_differs(rep[k], calc, k) and _differs(rep[k], single, k) for k in ("hdop", "pdop"))
+        off = [(abs(rep[k] - single[k]), abs(rep[k] - calc[k])) for k in ("hdop", "pdop") if rep[k] is not None]
+        d_single, d_multi = sum(a for a, _ in off), sum(b for _, b in off)
+        vote = 0 if abs(d_single - d_multi) < 1e-9 else (1 if d_single < d_multi else -1)
+        return (True, bad, vote)
 
     @staticmethod
     def _add_run(bins: list[tuple[LogHistogram, int]], run: int) -> None:
@@ -200,13 +224,23 @@ class DopStats:
         def rnd(d: dict | None, keys: tuple[str, ...]) -> dict[str, float | None]:
             return {k: (None if d is None or d.get(k) is None else round(d[k], 3)) for k in keys}
 
+        single = self.clock_model == "single"
+        per_system = {k: h.quantile(0.5) for k, h in self.hist_calc.items()}
+        one_clock = {k: h.quantile(0.5) for k, h in self.hist_single.items()}
         return {
             "reported": {k: h.quantile(0.5) for k, h in self.hist_rep.items()},
-            "computed": {k: h.quantile(0.5) for k, h in self.hist_calc.items()},
+            "computed": one_clock if single else per_system,
+            "clock_model": self.clock_model,
+            "clock_model_votes": dict(self.votes),
+            "computed_per_system_clock": per_system,
+            "computed_single_clock": one_clock,
             "current": {"reported": rnd(self.current_rep, ("gdop", "pdop", "hdop", "vdop")),
-                        "computed": rnd(self.current_calc, KEYS),
+                        "computed": rnd(self.current_single if single else self.current_calc, KEYS),
+                        "computed_per_system_clock": rnd(self.current_calc, KEYS),
                         "computed_single_clock": rnd(self.current_single, KEYS),
-                        "used": self.current_n, "disagree": self.disagreeing},
+                        "used": self.current_n, "used_listed": self.current_used_listed,
+                        "disagree": self.disagreeing},
+            "unknown_ids": {"epochs": self.unknown_epochs, "ids": sorted(self.unknown_ids)},
             "disagreements": self.disagreements,
             "compared": self.compared,
             "disagree_share": round(self.disagreements / self.compared, 4) if self.compared else None,

@@ -32,8 +32,8 @@ class Analyzer:
         self.config = config or AnalysisConfig()
         self._log = EventLog(max_events)
         cfg, emit = self.config, self._log.add
-        self.integrity = StreamIntegrity(cfg, emit)
         self.fix = FixStats(cfg, emit)
+        self.integrity = StreamIntegrity(cfg, emit, on_gap=self.fix.note_data_gap)  # a stall is a data gap
         self.position = PositionStats(cfg, emit)
         self.dop = DopStats()
         self.signal = SignalStats(cfg, emit)
@@ -108,7 +108,7 @@ class Analyzer:
         mean = self.position.snapshot().get("mean")
         if not mean or mean.get("lat") is None:
             return None
-        ref = (mean["lat"], mean["lon"], mean["h"])
+        ref = (mean["lat"], mean["lon"], mean["h"] if mean.get("h") is not None else 0.0)  # no heights: h unknown
         self.position.set_reference(*ref, source="session_mean")
         return ref
 
@@ -123,6 +123,7 @@ class Analyzer:
             "stream": self.integrity.snapshot(counters),
             "fix": self.fix.snapshot(),
             "position": self.position.snapshot(),
+            "motion": self.position.motion.snapshot(),
             "dop": self.dop.snapshot(),
             "signal": self.signal.snapshot(),
             "sky": self.sky.snapshot(),

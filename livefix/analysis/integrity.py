@@ -5,9 +5,11 @@ bench long before its positions look wrong. All times come from the stream items
 - Epoch interval: receiver UTC difference when both epochs carry a time (exact nominal rate),
   else host arrival difference. rate_hz = 1 / median of the last 256 intervals.
 - Jitter: standard deviation of host arrival intervals over the same window, gaps excluded, in ms.
-- Gap: an epoch interval longer than 3 × nominal (nominal known after 5 intervals).
+- Gap: an epoch interval longer than 3 × nominal (nominal known after 5 intervals) while bytes kept
+  coming: the receiver skipped epochs. Across a stall it is not counted again (reported once).
 - Stall: no chunk for longer than config.stall_s; a link "stalled" event with no chunk after it is
-  shown as an ongoing stall.
+  shown as an ongoing stall. A stall is a data gap: reported here once (count, list, total) and
+  passed to `on_gap` so the fix statistics keep it out of availability and outages.
 - Checksum burst: >= 5 bad checksums within 10 s (common practice) -> one "checksum_burst" event
   per burst (re-armed after 10 s without bad checksums).
 """
@@ -29,7 +31,9 @@ GAP_FACTOR = 3.0
 BURST_N = 5
 BURST_S = 10.0
 MAX_LIST = 100
-PASS_KEYS = ("lines", "bad_checksum", "malformed", "unknown", "proprietary", "junk_bytes", "overlong")
+# binary_frames/_bytes: verified binary frames sharing the stream (livefix.binframe), not damage
+PASS_KEYS = ("lines", "bad_checksum", "malformed", "unknown", "proprietary", "junk_bytes", "overlong",
+             "binary_frames", "binary_bytes")
 
 
 def _median(xs: list[float]) -> float:
@@ -39,9 +43,11 @@ def _median(xs: list[float]) -> float:
 
 
 class StreamIntegrity:
-    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None]) -> None:
+    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
+                 on_gap: Callable[[float], None] | None = None) -> None:
         self.config = config
         self.emit = emit
+        self.on_gap = on_gap  # told of every stall (livefix.analysis.fixes: a data gap)
         self.reset()
 
     def reset(self) -> None:
@@ -51,6 +57,7 @@ class StreamIntegrity:
         self.bytes = 0
         self.stalls: list[dict[str, Any]] = []
         self.stall_count = 0
+        self.stall_s = 0.0  # total of the finished stalls
         self.pending_stall = False  # a link "stalled" event and no chunk since
         self.latest = 0.0  # stream time of the latest item seen here
         self.epochs = 0
@@ -64,6 +71,10 @@ class StreamIntegrity:
         self.gap_count = 0
         self.time_jumps = 0
         self.rollbacks = 0
+        self.time_faults = 0  # receiver time jumps not confirmed by the following epochs
+        self.dates_invalid = 0  # stretches of default / rolled-over receiver dates
+        self._holes: deque[float] = deque(maxlen=64)  # host times at which data resumed after a stall
+        self.date_known = True  # of the latest epoch (livefix.state.epoch.Epoch.date_known)
         self.bad_times: deque[float] = deque()
         self.bursts = 0
         self.in_burst = False
@@ -84,7 +95,11 @@ class StreamIntegrity:
         self.bytes += nbytes
 
     def _stall(self, m0: float, w0: float, dur: float, mono: float, wall: float) -> None:
+        self._holes.append(mono)  # epochs missing across it are this one data gap, not a gap again
         self.stall_count += 1
+        self.stall_s += dur
+        if self.on_gap is not None:
+            self.on_gap(mono)
         self.stalls.append({"start": iso(w0), "duration_s": round(dur, 3)})
         if len(self.stalls) > MAX_LIST:
             del self.stalls[0]
@@ -97,6 +112,10 @@ class StreamIntegrity:
             self.time_jumps += 1
         elif ev.kind == "time_rollback":
             self.rollbacks += 1
+        elif ev.kind == "time_fault":
+            self.time_faults += 1
+        elif ev.kind == "receiver_date_invalid":
+            self.dates_invalid += 1
         elif ev.kind == "link" and ev.data.get("state") == "stalled" and self.last_mono is not None:
             self.pending_stall = True
 
@@ -120,10 +139,15 @@ class StreamIntegrity:
 
     def on_epoch(self, ep: Epoch) -> None:
         self.epochs += 1
+        self.date_known = ep.date_known
         p = self.prev
         self.prev = ep
         if p is None:
             return
+        holes = self._holes
+        hole = bool(holes) and any(p.mono < h <= ep.mono for h in holes)
+        while holes and holes[0] <= p.mono:
+            holes.popleft()
         host = ep.mono - p.mono
         dt = host
         if ep.utc is not None and p.utc is not None and 0 < ep.utc - p.utc < 3600:
@@ -132,6 +156,9 @@ class StreamIntegrity:
             return
         nominal = self._nominal
         if nominal is not None and dt > GAP_FACTOR * nominal:
+            if hole:  # no bytes at all: reported once, as the data gap (stall), not again here
+                self._add_interval(dt)
+                return
             self.gap_count += 1
             self.gaps.append({"start": iso(p.utc if p.utc is not None else p.wall),
                               "duration_s": round(dt, 3)})
@@ -199,8 +226,14 @@ class StreamIntegrity:
                            "duration_s": round(max(0.0, self.latest - self.last_mono), 3), "ongoing": True})
         out["stalls"] = stalls
         out["stall_count"] = self.stall_count + int(self.pending_stall)
+        # the one report of holes in the data (no bytes); the fix statistics leave them out
+        out["data_gaps"] = {"count": out["stall_count"], "total_s": round(
+            self.stall_s + sum(x["duration_s"] for x in stalls if x.get("ongoing")), 3)}
         out["time_jumps"] = self.time_jumps
         out["rollbacks"] = self.rollbacks
+        out["time_faults"] = self.time_faults
+        out["receiver_dates_invalid"] = self.dates_invalid
+        out["date_known"] = self.date_known  # False: times are a time of day, the date is unknown
         out["checksum_bursts"] = self.bursts
         dur = self.duration_s()
         out["duration_s"] = round(dur, 3)

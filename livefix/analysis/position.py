@@ -1,5 +1,12 @@
-"""Position statistics: precision (scatter about the mean), accuracy (offset from a reference),
-drift, Allan deviation, convergence and how honest the receiver's own sigmas are.
+"""Position statistics of the static receiver: precision (scatter about the mean), accuracy (offset
+from a reference), drift, Allan deviation, convergence and how honest the receiver's own sigmas
+are. They describe the converged receiver standing still, so three kinds of epochs are kept out:
+- moving epochs (livefix.analysis.motion); when the receiver moves to a new place, the figures
+  start afresh for that static segment and the longest segment's figures are published;
+- jumps and their re-convergence (livefix.analysis.jumps), reported apart under "jumps";
+- for the vertical, epochs without a height (RMC/GLL only: never a height of 0) and heights in the
+  other datum: the first height decides whether heights are ellipsoidal (GGA/GNS with geoid
+  separation) or above mean sea level only (separation empty); the two are never mixed.
 
 Frames: all positions are held as E/N/U in one *anchor* frame (the user reference when given,
 else the first fix), so changing the reference never needs the raw history: the new reference
@@ -7,14 +14,16 @@ is projected into the anchor frame and the means are carried through geodetic co
 the reference's own frame (exact). Differences between the two frames' axes are d/R radians,
 i.e. under 2 mm for points 100 m apart.
 
-Session-mean reference (no user reference): the mean of the first SETTLE_EPOCHS epochs of a fix
-type, then fixed so offsets do not wander; it is replaced only when a better-ranked fix type
-completes its own first SETTLE_EPOCHS epochs (so a cold start's single fixes do not bias an RTK
-session). `ref.fix` names the fix type used.
+Estimators, named for what they are: scatter figures (CEP, R95, V95, ellipse) are about the sample
+*mean* of the settled epochs of one fix type; the automatic reference ("session_median") is the
+*median* of the first SETTLE_EPOCHS settled epochs of a fix type, then fixed so offsets do not
+wander, replaced only when a better-ranked fix type completes its own first SETTLE_EPOCHS epochs
+(so a cold start's single fixes do not bias an RTK session). `ref.fix` names the fix type used.
 
 Headline rule: the figures at the top level describe the best fix type present (rtk_fixed >
 rtk_float > dgnss > pps > single > others) that has at least MIN_COUNT epochs and at least
-MIN_SHARE of all fixed epochs; otherwise the fix type with the most epochs. `fix` names it.
+MIN_SHARE of all fixed epochs; otherwise the fix type with the most epochs. `fix` names it;
+`by_fix` gives every fix type's figures with its `share` of the settled epochs.
 """
 
 from __future__ import annotations
@@ -26,24 +35,26 @@ from typing import Any
 import numpy as np
 
 from livefix.analysis.config import AnalysisConfig
-from livefix.analysis.convergence import Tracker, first_hold
+from livefix.analysis.convergence import Convergence, Target
 from livefix.analysis.geo import Projector
+from livefix.analysis.jumps import Jumps
+from livefix.analysis.motion import MotionDetector
+from livefix.analysis.position_figures import drift_figures, empty_figures
 from livefix.analysis.streaming import Timeline, num, valid_fix
-from livefix.analysis.track import Track
+from livefix.analysis.track import E, N, Track, U
 from livefix.geodesy import LocalFrame
 from livefix.state.epoch import FIX_NAMES, Epoch, Event
 
 RANK = ("rtk_fixed", "rtk_float", "dgnss", "pps", "single", "manual", "estimated", "simulator")
 MIN_COUNT = 30
 MIN_SHARE = 0.05
-SETTLE_EPOCHS = 60  # fixes averaged for the session-mean reference, which then stays fixed
-HEAD_CAP = 36000  # first epochs kept whole for convergence (1 h at 10 Hz)
+SETTLE_EPOCHS = 60  # settled fixes whose median is the automatic reference, which then stays fixed
 MAX_SAMPLES = 2000
 NAN = float("nan")
 
 
 class PositionStats:
-    """Snapshot key "position"; see livefix.analysis for the keys."""
+    """Snapshot key "position" (and "motion" via `motion`); see livefix.analysis for the keys."""
 
     def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None]) -> None:
         self.cfg = config
@@ -54,6 +65,20 @@ class PositionStats:
 
     def reset(self) -> None:
         self.clock = Timeline()
+        self.motion = MotionDetector(self.cfg)
+        self._epochs = 0
+        self.segments = 0  # static segments at distinct places
+        self._best: dict[str, Any] | None = None  # figures of the longest earlier static segment
+        self._best_n = 0
+        self._was_moving = False
+        self._user_ref: tuple[float, float, float] | None = None
+        self._user_source = "user"
+        self._reset_site()
+        if self.cfg.ref is not None:
+            self.set_reference(*self.cfg.ref, source="user")
+
+    def _reset_site(self) -> None:
+        """Everything that describes one static segment."""
         self.anchor: LocalFrame | None = None
         self.tracks: dict[str, Track] = {}
         self.ref: tuple[float, float, float] | None = None
@@ -62,28 +87,27 @@ class PositionStats:
         self.ref_frame: LocalFrame | None = None
         self._anchor_p: Projector | None = None  # the two frames above, with the ECEF memo
         self._ref_p: Projector | None = None
-        self.ref_fix: str | None = None  # fix type whose first epochs gave the session-mean reference
-        self.head = np.full((HEAD_CAP, 5), np.nan)  # t, e, n, u, quality
-        self.head_n = 0  # rows added; the newest wait in _head_pend until a reader flushes them
-        self._head_pend: list[tuple[float, float, float, float, int]] = []
-        self._head_done = 0
-        self._trk_h = Tracker(self.cfg.converge_hold_s)
-        self._trk_v = Tracker(self.cfg.converge_hold_s)
-        self._medians: dict[str, tuple[float, float, float]] | None = None
+        self.ref_fix: str | None = None  # fix type whose first epochs gave the automatic reference
+        self.conv = Convergence(self.cfg.converge_hold_s)
+        self.jumps = Jumps(self.cfg)
         self._last: tuple[float, float, float] | None = None
-        self._epochs = 0
+        self._site_en: tuple[float, float] | None = None  # last static E/N of this segment
         self._fixed_now = False
-        self.no_height = 0  # fixed epochs without a height (vertical figures then mean little)
+        self.no_height = 0  # fixed epochs without a height (vertical figures leave them out)
+        self.h_datum: str | None = None  # "ellipsoidal" | "msl", set by the first height
+        self.other_datum = 0  # heights in the other datum, left out
         self._cache: tuple[int, dict[str, Any]] | None = None
-        self._auto = True  # session-mean reference may still settle / upgrade
-        if self.cfg.ref is not None:
-            self.set_reference(*self.cfg.ref, source="user")
+        self._auto = True  # automatic reference may still settle / upgrade
+        self.segments += 1
+        if self._user_ref is not None:
+            self._set_ref(*self._user_ref, source=self._user_source)
 
     # ---- reference -------------------------------------------------------------------------
     def set_reference(self, lat: float, lon: float, h: float, source: str = "user") -> None:
         """Offsets, errors and convergence are measured from this point from now on. A reference
         set from outside (even the mean, at the user's request) is sticky: no automatic update."""
         self._auto = False
+        self._user_ref, self._user_source = (float(lat), float(lon), float(h)), source
         self._set_ref(lat, lon, h, source)
 
     def _set_ref(self, lat: float, lon: float, h: float, source: str) -> None:
@@ -95,141 +119,113 @@ class PositionStats:
             self.anchor = LocalFrame(*self.ref)
             self._anchor_p = Projector(self.anchor)
         self.ref_enu = self.anchor.enu(*self.ref)
+        self._auto = self._auto and source not in ("user", "session_mean")
         self._cache = None
 
     # ---- stream ----------------------------------------------------------------------------
     def on_event(self, ev: Event) -> None:
         """Position statistics depend on epochs only; events are accepted for symmetry."""
 
+    def _height(self, ep: Epoch) -> float | None:
+        """The epoch's height in this segment's datum, else None (counted)."""
+        if ep.h is not None:
+            h, datum = ep.h, "ellipsoidal"
+        elif ep.alt_msl is not None and math.isfinite(ep.alt_msl) and abs(ep.alt_msl) < 1e7:
+            h, datum = ep.alt_msl, "msl"
+        else:
+            self.no_height += 1
+            return None
+        if self.h_datum is None:
+            self.h_datum = datum
+        elif datum != self.h_datum:
+            self.other_datum += 1
+            return None
+        return h
+
     def on_epoch(self, ep: Epoch) -> None:
         t = self.clock.step(ep)
         self._epochs += 1
         if not valid_fix(ep):
             self._fixed_now = False
-            self._head_add(t, NAN, NAN, NAN, 0)
+            if not self._was_moving:
+                self.conv.add(t, NAN, NAN, NAN, False, self._target)
             return
         self._fixed_now = True
         fix = FIX_NAMES.get(ep.quality, "none")  # Epoch.fix
-        lat, lon, h = ep.lat, ep.lon, ep.h
-        if h is None:  # e.g. RMC-only epochs: carry the last height, and say how often
-            self.no_height += 1
-            h = self._last[2] if self._last is not None else (self.ref[2] if self.ref else 0.0)
+        lat, lon = ep.lat, ep.lon
+        h = self._height(ep)
+        # no height: project at the last height (a height error moves E/N by d/R only)
+        hp = h if h is not None else (self._last[2] if self._last else (self.ref[2] if self.ref else 0.0))
         ap = self._anchor_p
         if ap is None:
-            self.anchor = LocalFrame(lat, lon, h)
+            self.anchor = LocalFrame(lat, lon, hp)
             ap = self._anchor_p = Projector(self.anchor)
-        e, n, u = ap.enu(lat, lon, h)
-        self._last = (lat, lon, h)
+        e, n, u = ap.enu(lat, lon, hp)
+        moving = self.motion.update(t, e, n, ep.speed_mps)
+        self._last = (lat, lon, hp)
+        if moving:
+            self._was_moving = self._was_moving or self.motion.moving  # a confirmed move may end at a new place
+            return
+        if self._was_moving:
+            self._was_moving = False
+            se = self._site_en
+            if se is not None and math.hypot(e - se[0], n - se[1]) > self.cfg.motion_spread_m:
+                self._new_site()
+                ap = self._anchor_p
+                if ap is None:
+                    self.anchor = LocalFrame(lat, lon, hp)
+                    ap = self._anchor_p = Projector(self.anchor)
+                e, n, u = ap.enu(lat, lon, hp)
+                self._last = (lat, lon, hp)
+        self._fixed_now = True
+        self._site_en = (e, n)
+        if h is None:
+            u = NAN
+        self.conv.add(t, e, n, u, True, self._target)
+        if not self.jumps.check(fix, t, self.clock.abs_time, e, n, u):
+            return  # inside a jump or its re-convergence: reported apart, kept out of the scatter
         trk = self.tracks.get(fix)
         if trk is None:
             trk = self.tracks[fix] = Track()
         sl, so, sa, hd = ep.sigma_lat, ep.sigma_lon, ep.sigma_alt, ep.hdop
         trk.add(t, e, n, u, NAN if sl is None else float(sl), NAN if so is None else float(so),
                 NAN if sa is None else float(sa), NAN if hd is None else float(hd))
-        # an unknown quality is kept as -1 ("none" as in Epoch.fix), never as a huge float that
-        # cannot be cast back to int
-        self._head_add(t, e, n, u, ep.quality if ep.quality in FIX_NAMES else -1)
         if self._auto and trk.n == SETTLE_EPOCHS and self._better(fix):
-            self._set_ref(*self.anchor.geodetic(*trk.mom.m), source="session_mean")
+            a = trk.ring.array()[:SETTLE_EPOCHS]
+            mu = a[:, U][np.isfinite(a[:, U])]
+            me, mn = float(np.median(a[:, E])), float(np.median(a[:, N]))
+            self._set_ref(*self.anchor.geodetic(me, mn, float(np.median(mu)) if mu.size else 0.0),
+                          source="session_median")
             self.ref_fix = fix
 
+    def _new_site(self) -> None:
+        """The receiver stopped at a new place: keep the longer segment's figures, start afresh."""
+        n = sum(t.n for t in self.tracks.values())
+        if n > self._best_n:
+            self._best, self._best_n = self._build(), n
+        self._reset_site()
+
     def _better(self, fix: str) -> bool:
-        """A fix type that settles replaces the session-mean reference only if it ranks higher."""
+        """A fix type that settles replaces the automatic reference only if it ranks higher."""
         if self.ref_fix is None:
             return True
         rank = {k: i for i, k in enumerate(RANK)}
         return rank.get(fix, len(RANK)) < rank.get(self.ref_fix, len(RANK))
 
-    def _head_add(self, t: float, e: float, n: float, u: float, q: int) -> None:
-        if self.head_n < HEAD_CAP:
-            p = self._head_pend
-            p.append((t, e, n, u, q))
-            self.head_n += 1
-            if self.head_n == HEAD_CAP:
-                self._seed_trackers()
-            elif len(p) >= 256:
-                self._head_flush()
-            return
-        name = FIX_NAMES.get(q, "none")
-        c = self._centre(name)
-        lim = self._thr_h.get(name)
-        self._trk_h.add(t, lim is not None and c is not None and self._err_h(e, n, u, c) <= lim)
-        lim = self._thr_v.get(name)
-        self._trk_v.add(t, lim is not None and c is not None and self._err_v(e, n, u, c) <= lim)
-
-    def _head_flush(self) -> None:
-        """Write the waiting head rows in one slice (a numpy row at a time is slow)."""
-        p = self._head_pend
-        if p:
-            self.head[self._head_done:self._head_done + len(p)] = p
-            self._head_done += len(p)
-            p.clear()
-
-    def _seed_trackers(self) -> None:
-        """Head buffer full: carry a still-running inside spell over to the streaming trackers,
-        which from now on judge against the medians frozen here."""
-        self._medians = self._head_medians()
-        for trk, which in ((self._trk_h, "h"), (self._trk_v, "v")):
-            t, inside = self._inside(which)
-            if inside.size and inside[-1]:
-                k = inside.size - 1
-                while k > 0 and inside[k - 1]:
-                    k -= 1
-                trk.start = float(t[k])
-
-    @staticmethod
-    def _err_h(e: float, n: float, u: float, c: tuple[float, float, float]) -> float:
-        return math.hypot(e - c[0], n - c[1])
-
-    @staticmethod
-    def _err_v(e: float, n: float, u: float, c: tuple[float, float, float]) -> float:
-        return abs(u - c[2])
-
-    def _centre(self, fix: str) -> tuple[float, float, float] | None:
-        """Truth for convergence: the user reference, else the median position of that fix type
-        over the head buffer (robust: a scripted jump or a bad spell must not move it)."""
+    def _target(self) -> Target | None:
+        """Centre and radii for convergence: the user reference or the final converged position
+        (median of the headline fix type's recent settled epochs), radius of the headline fix type."""
+        name = self.headline()
+        if name is None:
+            return None
         if self.ref_source == "user" and self.ref_enu is not None:
-            return self.ref_enu
-        if self._medians is not None:
-            return self._medians.get(fix)
-        return self._head_medians().get(fix)
-
-    def _head_medians(self) -> dict[str, tuple[float, float, float]]:
-        self._head_flush()
-        a = self.head[: self.head_n]
-        out = {}
-        for q in np.unique(a[:, 4]).astype(int):
-            if q > 0:
-                sel = a[a[:, 4] == q]
-                out[FIX_NAMES.get(int(q), "none")] = tuple(float(v) for v in np.median(sel[:, 1:4], axis=0))
-        return out  # type: ignore[return-value]
-
-    def _inside(self, which: str) -> tuple[np.ndarray, np.ndarray]:
-        self._head_flush()
-        a = self.head[: self.head_n]
-        thr = self._thr_h if which == "h" else self._thr_v
-        inside = np.zeros(a.shape[0], dtype=bool)
-        med = self._medians if self._medians is not None else self._head_medians()
-        user = self.ref_enu if self.ref_source == "user" else None
-        for q in np.unique(a[:, 4]).astype(int):
-            name = FIX_NAMES.get(int(q), "none")
-            lim, c = thr.get(name), user or med.get(name)
-            if lim is None or c is None:
-                continue
-            sel = a[:, 4] == q
-            if which == "h":
-                err = np.hypot(a[sel, 1] - c[0], a[sel, 2] - c[1])
-            else:
-                err = np.abs(a[sel, 3] - c[2])
-            inside[sel] = err <= lim
-        return a[:, 0], inside
-
-    def _convergence(self, which: str) -> float | None:
-        t, inside = self._inside(which)
-        got = first_hold(t, inside, self.cfg.converge_hold_s)
-        if got is None:
-            got = (self._trk_h if which == "h" else self._trk_v).done
-        return num(got, 2)
+            c = self.ref_enu
+        else:
+            a = self.tracks[name].ring.array()
+            mu = a[:, U][np.isfinite(a[:, U])]
+            c = (float(np.median(a[:, E])), float(np.median(a[:, N])), float(np.median(mu)) if mu.size else NAN)
+        rh, rv = self.cfg.converge_radius  # from the check profile, else tied to the fix type
+        return c, rh if rh is not None else self._thr_h.get(name), rv if rv is not None else self._thr_v.get(name)
 
     # ---- queries ---------------------------------------------------------------------------
     def headline(self) -> str | None:
@@ -260,6 +256,12 @@ class PositionStats:
         if self._cache is not None and self._cache[0] == self._epochs:
             return self._cache[1]
         snap = self._build()
+        n = sum(t.n for t in self.tracks.values())
+        if self._best is not None and self._best_n > n:
+            snap = self._best
+        snap = snap | {"segments": self.segments}
+        if self.motion.state() == "moving":
+            snap = snap | empty_figures() | {"not_measured": "receiver moving"}
         self._cache = (self._epochs, snap)
         return snap
 
@@ -267,29 +269,35 @@ class PositionStats:
         name = self.headline()
         ref = None if self.ref is None else {"lat": num(self.ref[0], 9), "lon": num(self.ref[1], 9),
                                              "h": num(self.ref[2], 4), "source": self.ref_source,
-                                             "fix": self.ref_fix if self.ref_source == "session_mean" else None}
+                                             "fix": self.ref_fix if self.ref_source == "session_median" else None}
+        tg = self._target()
+        conv = {"radius_h_m": tg[1] if tg else None, "radius_v_m": tg[2] if tg else None,
+                "hold_s": self.cfg.converge_hold_s, "fix": name, "from": "first fix",
+                "centre": "user reference" if self.ref_source == "user" else "median of the final settled epochs"}
+        total = sum(t.n for t in self.tracks.values())
         out: dict[str, Any] = {"fix": name, "ref": ref, "mean": None, "offset_m": None, "no_height": self.no_height,
-                               "convergence_s": self._convergence("h"), "convergence_v_s": self._convergence("v"),
+                               "height_datum": self.h_datum, "other_datum_heights": self.other_datum,
+                               "convergence_s": num(self.conv.time("h", tg), 2),
+                               "convergence_v_s": num(self.conv.time("v", tg), 2), "convergence": conv,
+                               "jumps": self.jumps.snapshot(), "estimators": ESTIMATORS,
                                "rule": f"best fix type with >= {MIN_COUNT} epochs and >= {MIN_SHARE:.0%} of fixes"}
-        out["by_fix"] = {k: t.session() for k, t in self.tracks.items()}
+        out["by_fix"] = {k: t.session() | {"share": num(t.n / total, 4)} for k, t in self.tracks.items()}
         if name is None or self.anchor is None:
-            return out | {"cep50_m": None, "cep95_m": None, "r95_m": None, "drms2_m": None, "v95_m": None,
-                          "ellipse": None, "window": {}, "drift_mm_per_h": None, "drift_se_mm_per_h": None,
-                          "drift_window_mm_per_h": None, "drift_window_se_mm_per_h": None,
-                          "allan": None, "honesty": None, "samples": None}
+            return out | empty_figures()
         trk = self.tracks[name]
         ses = out["by_fix"][name]
-        out |= {k: ses.get(k) for k in ("n", "basis", "cep50_m", "cep95_m", "r95_m", "r95_gauss_m", "drms2_m",
-                                        "v95_m", "ellipse")}
-        lat, lon, h = self.anchor.geodetic(*trk.mom.m)
-        out["mean"] = {"lat": num(lat, 9), "lon": num(lon, 9), "h": num(h, 4)}
+        out |= {k: ses.get(k) for k in ("n", "n_v", "basis", "cep50_m", "cep95_m", "r95_m", "r95_gauss_m",
+                                        "drms2_m", "v95_m", "ellipse")}
+        me, mn, mu = trk.mom.mean()
+        lat, lon, h = self.anchor.geodetic(me, mn, 0.0 if mu != mu else mu)
+        out["mean"] = {"lat": num(lat, 9), "lon": num(lon, 9), "h": num(h, 4) if mu == mu else None,
+                       "h_datum": self.h_datum if mu == mu else None}
         if self.ref_frame is not None:
             oe, on, ou = self.ref_frame.enu(lat, lon, h)
-            out["offset_m"] = {"e": num(oe), "n": num(on), "u": num(ou), "h": num(math.hypot(oe, on))}
+            vert = mu == mu and not (self.ref_source == "user" and self.h_datum == "msl")  # user ref: ellipsoidal
+            out["offset_m"] = {"e": num(oe), "n": num(on), "u": num(ou) if vert else None, "h": num(math.hypot(oe, on))}
         out["window"] = trk.window(self.cfg.window_s)
-        d = trk.drift(self.cfg.window_s)
-        out |= {"drift_mm_per_h": d["session"], "drift_se_mm_per_h": d["se"], "drift_window_mm_per_h": d["window"],
-                "drift_window_se_mm_per_h": d["window_se"]}
+        out |= drift_figures(trk.drift(self.cfg.window_s))
         out["allan"] = trk.allan_dev()
         out["honesty"] = trk.honesty()
         out["samples"] = self._samples(trk)
@@ -301,8 +309,16 @@ class PositionStats:
         a = trk.recent(self.cfg.window_s)
         step = max(1, math.ceil(a.shape[0] / MAX_SAMPLES))
         a = a[::step]
-        c = self.ref_enu if self.ref_enu is not None else tuple(trk.mom.m)
+        m = trk.mom.mean()
+        c = self.ref_enu if self.ref_enu is not None else m
         out: dict[str, Any] = {k: [num(v, 4) for v in (a[:, i + 1] - c[i]).tolist()] for i, k in enumerate("enu")}
-        m = trk.mom.m
         return out | {"about": "ref" if self.ref_enu is not None else "mean", "step": step,
                       "mean_e": num(m[0] - c[0]), "mean_n": num(m[1] - c[1])}
+
+
+ESTIMATORS = {
+    "scatter_centre": "mean of the settled epochs of the fix type (CEP, R95, V95, ellipse)",
+    "ref_session_median": "median of the first settled epochs of the best fix type",
+    "convergence_centre": "user reference, else median of the headline fix type's recent settled epochs",
+    "drift": "least-squares slope of 1-minute block means; 95 % interval for AR(1) residuals",
+}

@@ -6,7 +6,9 @@ Definitions (see shared/REFERENCES.md):
   look for either); the Gaussian model value is available separately as `r95_gauss_m`, from the
   NRC (1995) style approximation 2.4477 * sqrt((sE^2 + sN^2)/2) for a near-circular scatter.
 - 2DRMS = 2 * sqrt(sE^2 + sN^2) (NRC 1995; US FRP Appendix A: holds 95-98 % of fixes).
-- V95: 95th percentile of |u - mean u|.
+- V95: 95th percentile of |u - mean u| over the epochs that carry a height (GGA/GNS); None when
+  fewer than two do ("not measured", never a height of 0).
+- Every figure is about the sample *mean* (precision); the reference of offsets is named apart.
 - Ellipse: eigen-decomposition of the 2x2 E/N covariance, 1-sigma semi-axes, orientation of the
   major axis in degrees clockwise from north (0..180).
 """
@@ -50,12 +52,14 @@ def figures(e: np.ndarray, n: np.ndarray, u: np.ndarray | None = None,
             "drms_m": num(math.sqrt(se2 + sn2)), "drms2_m": num(2.0 * math.sqrt(se2 + sn2)),
             "sigma_e_m": num(math.sqrt(se2)), "sigma_n_m": num(math.sqrt(sn2)),
             "ellipse": ellipse(cov)}
-    if u is not None and u.size == cnt:
-        cu = float(np.mean(u)) if centre is None else centre[2]
-        du = u - cu
+    uf = u[np.isfinite(u)] if u is not None and u.size == cnt else np.empty(0)  # epochs with a height only
+    out["n_v"] = int(uf.size)
+    if uf.size >= 2:
+        cu = float(np.mean(uf)) if centre is None else centre[2]
+        du = uf - cu
         out |= {"v95_m": num(float(np.percentile(np.abs(du), 95))), "sigma_u_m": num(float(np.std(du, ddof=1)))}
     else:
-        out["v95_m"] = None
+        out |= {"v95_m": None, "sigma_u_m": None}
     return out
 
 

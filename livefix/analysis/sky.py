@@ -10,6 +10,10 @@ config.elev_mask_deg never count towards obstruction. Memory is fixed (648 cells
 Only epochs with a fix and at least 4 tracked satellites count, and none while an interference
 event is open: during acquisition, outages and jamming satellites are untracked in every direction,
 which says nothing about the site.
+
+`seen` counts every satellite the receiver ever listed in view, per constellation, exactly (not by
+sampling): a set of (system, prn) updated only when an epoch's satellite tuple is a new object,
+bounded by MAX_SEEN keys (a few hundred satellites exist in all constellations together).
 """
 
 from __future__ import annotations
@@ -29,6 +33,7 @@ MIN_N = 3  # samples in a cell before it counts
 BLOCKED_SHARE = 0.5  # untracked share that makes a cell blocked
 MIN_TRACKED = 4
 CLEAR_SHARE = 0.9  # tracked share that makes a cell clear for clear_above_deg
+MAX_SEEN = 512  # (system, prn) keys kept for `seen`; beyond that new ones are only counted
 
 
 class SkyMap:
@@ -42,8 +47,24 @@ class SkyMap:
         self.untracked = [0] * n
         self.cn0 = [0.0] * n
         self._t = -math.inf
+        self.seen: set[tuple[str, int]] = set()
+        self.seen_overflow = 0  # satellites not kept once MAX_SEEN was reached
+        self._seen_of: tuple | None = None  # the last Epoch.sats tuple counted
+
+    def _count_seen(self, sats: tuple) -> None:
+        self._seen_of = sats
+        seen = self.seen
+        for s in sats:
+            k = (s.system, s.prn)
+            if k not in seen:
+                if len(seen) < MAX_SEEN:
+                    seen.add(k)
+                else:
+                    self.seen_overflow += 1
 
     def on_epoch(self, ep: Epoch, suspend: bool = False) -> None:
+        if ep.sats is not self._seen_of:  # the same tuple while the sky is unchanged
+            self._count_seen(ep.sats)
         dt = ep.mono - self._t
         if suspend or ep.quality <= 0 or 0 <= dt < SAMPLE_S:
             return
@@ -161,4 +182,12 @@ class SkyMap:
                               for i in range(r * N_AZ, (r + 1) * N_AZ)] for r in rows]},
             "clear_above_deg": self.clear_above(),
             "visible_share": round(t / (t + u), 4) if t + u else None,
+            "seen": self.seen_by_system(),
         }
+
+    def seen_by_system(self) -> dict[str, int]:
+        """Satellites ever listed in view, per RINEX letter (exact)."""
+        out: dict[str, int] = {}
+        for system, _ in self.seen:
+            out[system] = out.get(system, 0) + 1
+        return dict(sorted(out.items()))

@@ -50,13 +50,17 @@ class Timeline:
     forward by less than a day, otherwise from the host monotonic stamps. So a receiver that loses
     its clock (UTC jumps back, or goes missing) does not fold the timeline; `reset` reports that
     UTC went back by more than a second, which together with a lost fix means a receiver restart.
+    A UTC step is taken from the session time of the last timed epoch: epochs without a time in
+    between (a receiver without a fix often leaves the time empty) moved on by host time, and
+    must not be counted twice; the timeline never goes back.
     """
 
-    __slots__ = ("t", "_utc", "_mono", "reset", "abs_time")
+    __slots__ = ("t", "_utc", "_utc_t", "_mono", "reset", "abs_time")
 
     def __init__(self) -> None:
         self.t: float | None = None
         self._utc: float | None = None
+        self._utc_t = 0.0  # session time of the epoch that carried _utc
         self._mono: float | None = None
         self.reset = False
         self.abs_time: float | None = None  # POSIX time for ISO labels (utc, else host wall)
@@ -71,7 +75,7 @@ class Timeline:
             if utc is not None and self._utc is not None:
                 d = utc - self._utc
                 if 0.0 <= d < 86400.0:
-                    dt = d
+                    dt = max(0.0, self._utc_t + d - t)
                 elif d < -1.0:
                     self.reset = True
             if dt is None:
@@ -79,7 +83,7 @@ class Timeline:
             t += dt
         self.t = t
         if utc is not None:
-            self._utc = utc
+            self._utc, self._utc_t = utc, t
             self.abs_time = utc
         else:
             self.abs_time = ep.wall

@@ -23,36 +23,43 @@ T, E, N, U, SLAT, SLON, SALT, HDOP = range(8)
 
 
 class Moments3:
-    """Pure-Python Welford mean/covariance of (e, n, u): cheaper than numpy for one row."""
+    """Pure-Python Welford mean/covariance of (e, n) and, over the epochs with a height, of u: cheaper
+    than numpy for one row. An epoch without a height (u NaN) adds to the horizontal moments only."""
 
-    __slots__ = ("n", "m", "c")
+    __slots__ = ("n", "m", "c", "nu")
 
     def __init__(self) -> None:
         self.n = 0
+        self.nu = 0  # epochs with a height
         self.m = [0.0, 0.0, 0.0]
-        self.c = [0.0] * 6  # ee, en, eu, nn, nu, uu
+        self.c = [0.0] * 6  # ee, en, eu, nn, nu, uu (eu, nu: cross terms are not kept: 0)
 
     def add(self, e: float, n: float, u: float) -> None:
         self.n += 1
         m, k = self.m, self.n
-        d0, d1, d2 = e - m[0], n - m[1], u - m[2]
+        d0, d1 = e - m[0], n - m[1]
         m[0] += d0 / k
         m[1] += d1 / k
-        m[2] += d2 / k
-        a0, a1, a2 = e - m[0], n - m[1], u - m[2]
         c = self.c
-        c[0] += d0 * a0
-        c[1] += d0 * a1
-        c[2] += d0 * a2
-        c[3] += d1 * a1
-        c[4] += d1 * a2
-        c[5] += d2 * a2
+        c[0] += d0 * (e - m[0])
+        c[1] += d0 * (n - m[1])
+        c[3] += d1 * (n - m[1])
+        if u == u:
+            self.nu += 1
+            d2 = u - m[2]
+            m[2] += d2 / self.nu
+            c[5] += d2 * (u - m[2])
+
+    def mean(self) -> tuple[float, float, float]:
+        """(e, n, u); u is NaN when no epoch had a height."""
+        return (self.m[0], self.m[1], self.m[2] if self.nu else math.nan)
 
     def cov(self) -> np.ndarray | None:
         if self.n < 2:
             return None
         c, k = self.c, self.n - 1
-        return np.array([[c[0], c[1], c[2]], [c[1], c[3], c[4]], [c[2], c[4], c[5]]]) / k
+        vu = c[5] / (self.nu - 1) if self.nu >= 2 else math.nan
+        return np.array([[c[0] / k, c[1] / k, 0.0], [c[1] / k, c[3] / k, 0.0], [0.0, 0.0, vu]])
 
 
 class Track:
@@ -72,7 +79,8 @@ class Track:
         if m.n >= WARMUP:  # radius about the running mean: close to the final mean once settled
             mm = m.m
             self.hist_r.add(math.hypot(e - mm[0], n - mm[1]))
-            self.hist_v.add(abs(u - mm[2]))
+            if m.nu >= WARMUP:
+                self.hist_v.add(abs(u - mm[2]))  # NaN (no height) is skipped by the histogram
         m.add(e, n, u)
         self.ring.push((t, e, n, u, slat, slon, salt, hdop))
         self.blocks.add(t, e, n, u)
@@ -104,21 +112,25 @@ class Track:
             return scatter.figures(np.empty(0), np.empty(0))
         return scatter.figures(a[:, E], a[:, N], a[:, U]) | {"span_s": num(a[-1, T] - a[0, T], 1)}
 
-    def drift(self, window_s: float) -> dict[str, dict[str, float | None]]:
+    def drift(self, window_s: float) -> dict[str, Any]:
+        """Session slope (block means) with its standard error and 95 % interval, and the slope over
+        the recent window, per axis in mm/h; `span_s` is the time the session fit covers."""
         b = self.blocks.blocks()
-        ses: dict[str, float | None] = {}
-        se: dict[str, float | None] = {}
-        win: dict[str, float | None] = {}
-        wse: dict[str, float | None] = {}
         a = self.recent(window_s)
+        out: dict[str, Any] = {k: {} for k in ("session", "se", "ci95", "window", "window_se", "rho", "n_eff")}
         for col, key in ((1, "e"), (2, "n"), (3, "u")):
-            s, s_se = drift.slope_se(b[:, 0], b[:, col]) if b.shape[0] >= 3 else (None, None)
-            ses[key] = num(s * drift.MM_PER_H, 2) if s is not None else None
-            se[key] = num(s_se * drift.MM_PER_H, 2) if s_se is not None else None
+            fit = drift.slope_fit(b[:, 0], b[:, col]) if b.shape[0] >= 3 else None
+            mm = (lambda v: num(v * drift.MM_PER_H, 2)) if fit else (lambda v: None)
+            out["session"][key] = mm(fit["b"]) if fit else None
+            out["se"][key] = mm(fit["se"]) if fit else None
+            out["ci95"][key] = mm(fit["ci95"]) if fit else None
+            out["rho"][key] = num(fit["rho"], 3) if fit else None
+            out["n_eff"][key] = num(fit["n_eff"], 1) if fit else None
             w, w_se = drift.slope_se(a[:, T], a[:, col]) if a.shape[0] >= 3 else (None, None)
-            win[key] = num(w * drift.MM_PER_H, 2) if w is not None else None
-            wse[key] = num(w_se * drift.MM_PER_H, 2) if w_se is not None else None
-        return {"session": ses, "se": se, "window": win, "window_se": wse}
+            out["window"][key] = num(w * drift.MM_PER_H, 2) if w is not None else None
+            out["window_se"][key] = num(w_se * drift.MM_PER_H, 2) if w_se is not None else None
+        out["span_s"] = num(float(b[-1, 0] - b[0, 0]), 1) if b.shape[0] >= 2 else None
+        return out
 
     def allan_dev(self) -> dict[str, Any]:
         """Short taus (from one epoch) from the full-rate ring; longer ones from the decimated
@@ -142,7 +154,11 @@ class Track:
                 continue
             out["tau_s"] += [num(m * tau0, 3) for m in ms]
             for col, key in ((0, "e"), (1, "n"), (2, "u")):
-                out[key] += [num(v, 6) for v in allan.oadev(data[:, col], tau0, ms)]
+                y = data[:, col]
+                y = y[np.isfinite(y)]  # epochs without a height: bridged, as gaps are
+                fit = [m for m in ms if 3 * m <= y.size]
+                out[key] += ([num(v, 6) for v in allan.oadev(y, tau0, fit)] if fit else []) \
+                    + [None] * (len(ms) - len(fit))
         if not out["tau_s"]:
             return empty
         return out | {"tau0_s": num(step, 3), "decimation": self.allan.factor}

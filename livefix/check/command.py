@@ -43,6 +43,10 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--jobs", choices=("auto", "1", "2"), default="auto",
                    help="for files judged as fast as possible: 2 runs the analysis on a second core; auto "
                         "(default) does so for files of 5 MB or more on 2+ cores (see livefix report)")
+    p.add_argument("--wait", action="store_true",
+                   help="keep trying live sources that do not answer at start (refused or unknown TCP "
+                        "host, device not plugged in yet) and that send no NMEA; without it they are an "
+                        "error (exit 2). Once connected, a lost source is always retried")
 
 
 def run(args: argparse.Namespace) -> int:
@@ -50,6 +54,7 @@ def run(args: argparse.Namespace) -> int:
     from livefix.check.runner import CheckOptions, CheckRun, name_sources
     from livefix.parallel import AnalysisProcessError
     from livefix.sources import SourceError
+    from livefix.sources.probe import check_file, first_contact
     from livefix.timefmt import parse_duration
 
     err = sys.stderr
@@ -64,9 +69,17 @@ def run(args: argparse.Namespace) -> int:
             metrics = parse_listen(args.metrics)
         opts = CheckOptions(sources=name_sources(args.sources), profile=profile, duration_s=duration, ref=ref,
                             report_dir=args.report, record_dir=args.record_dir, site=args.site, notes=args.notes,
-                            metrics=metrics, speed=args.speed, jobs=args.jobs,
+                            metrics=metrics, speed=args.speed, jobs=args.jobs, wait=args.wait,
                             command="livefix check " + " ".join(shlex.quote(a) for a in sys.argv[2:]))
         check = CheckRun(opts)
+        try:
+            for rx in check.rxs:  # before any run: a source that cannot work is named at once
+                first_contact(rx.source, wait=args.wait)
+                check_file(rx.source)
+        except SourceError as exc:
+            for rx in check.rxs:
+                rx.source.close()
+            raise SourceError(f"{rx.name}: {exc}" if len(check.rxs) > 1 else str(exc)) from None
     except (ProfileError, SourceError, ValueError, OSError) as exc:
         print(f"livefix check: could not run: {term_text(exc)}", file=err)
         return 2
@@ -92,6 +105,9 @@ def run(args: argparse.Namespace) -> int:
             print(f"livefix check: cannot write the report: {term_text(exc)}", file=err)
             return 2
     print_summary(report, sys.stdout)
+    if check.could_not_run:
+        print(f"livefix check: could not run: {term_text(check.could_not_run)}", file=err)
+        return 2
     silent = [rx["name"] for rx in report["receivers"] if not rx.get("bytes")]
     if silent:
         print(f"livefix check: could not run: no data from {', '.join(term_text(n) for n in silent)}", file=err)

@@ -13,6 +13,7 @@ Grammar of one threshold (a `[[threshold]]` table):
               only ("position.X" -> "position.by_fix.FIX.X", "fix.availability" -> its FIX share)
   reduce      optional for lists: min max mean sum count first last (a list defaults to count)
   unit, description, source   text; source names the published guideline or says "common practice"
+[profile] may state converge_h_m / converge_v_m: the convergence radius (metres) the figures use.
 A missing figure fails with the note "not measured": a check that could not look did not pass.
 """
 
@@ -28,6 +29,8 @@ from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 from typing import Any
+
+from livefix.check.interval import INTERVALS, STATIC_PREFIXES, judge
 
 OPS: dict[str, Callable[[Any, Any], bool]] = {
     "<=": operator.le, "<": operator.lt, ">=": operator.ge, ">": operator.gt, "==": operator.eq,
@@ -45,7 +48,7 @@ _SEGMENT = re.compile(r"([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?(?:\.|$)")
 _FILTER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(<=|>=|==|!=|<|>)\s*(.+?)\s*$")
 _THRESHOLD_KEYS = {"name", "metric", "op", "limit", "fix", "reduce", "unit", "description", "source"}
 _TTFF_KEYS = {"n", "kind", "send", "send_hex", "command", "timeout_s", "settle_s"}
-_PROFILE_KEYS = {"name", "title", "description", "duration", "source"}
+_PROFILE_KEYS = {"name", "title", "description", "duration", "source", "converge_h_m", "converge_v_m"}
 
 
 class ProfileError(ValueError):
@@ -95,6 +98,13 @@ class Profile:
     ttff: TTFFCycles | None = None
     origin: str = ""  # "built-in" or the file path
     source: str = ""
+    converge_radius: tuple[float | None, float | None] = (None, None)  # [profile] converge_h_m / converge_v_m
+
+    def config(self, ref: tuple[float, float, float] | None = None) -> Any:
+        """The AnalysisConfig this profile's figures need (the convergence radius it states)."""
+        from livefix.analysis.config import AnalysisConfig
+
+        return AnalysisConfig(ref=ref, converge_radius=self.converge_radius)
 
 
 @dataclass(frozen=True, slots=True)
@@ -110,10 +120,13 @@ class Result:
     description: str = ""
     unit: str = ""
     fix: str | None = None
+    inconclusive: bool = False  # the 95 % interval straddles the limit: neither pass nor fail
+    interval: tuple[float, float] | None = None  # 95 % interval of the measured value, when it has one
 
     def to_json(self) -> dict[str, Any]:
         return {"name": self.name, "metric": self.metric, "fix": self.fix, "measured": self.measured,
                 "op": self.op, "limit": self.limit, "unit": self.unit, "passed": self.passed,
+                "inconclusive": self.inconclusive, "interval95": None if self.interval is None else list(self.interval),
                 "note": self.note, "description": self.description, "source": self.source}
 
 
@@ -172,9 +185,15 @@ def parse_profile(text: str, origin: str = "<text>", builtin: bool = False) -> P
     if not thresholds and ttff is None:
         raise ProfileError(f"{where}: no [[threshold]] and no [ttff_cycles]: nothing to check")
     name = str(head.get("name") or Path(origin).stem)
+    radius = []
+    for key in ("converge_h_m", "converge_v_m"):
+        v = head.get(key)
+        if v is not None and (isinstance(v, bool) or not isinstance(v, int | float) or v <= 0):
+            raise ProfileError(f"{where}: [profile] key {key!r} must be a distance in metres > 0, got {v!r}")
+        radius.append(None if v is None else float(v))
     return Profile(name=name, title=str(head.get("title", "")), description=str(head.get("description", "")),
                    duration_s=duration, thresholds=thresholds, ttff=ttff, origin=origin,
-                   source=str(head.get("source", "")))
+                   source=str(head.get("source", "")), converge_radius=(radius[0], radius[1]))
 
 
 def _no_unknown(table: dict[str, Any], allowed: set[str], where: str) -> None:
@@ -276,12 +295,12 @@ def derived(analysis: dict[str, Any]) -> dict[str, Any]:
     avail = fix.get("availability")
     if isinstance(avail, dict) and avail:
         out["fix_share"] = math.fsum(v for k, v in avail.items() if k != "none" and _is_num(v))
-        after = _share_after(fix, avail, "ttff_s", lambda k: k != "none")
-        if after is not None:
-            out["fix_share_after_first_fix"] = after
-        after = _share_after(fix, avail, "ttff_rtk_fixed_s", lambda k: k == "rtk_fixed")
-        if after is not None:
-            out["rtk_fixed_share_after_first"] = after
+        for key, ttff_key, wanted in _AFTER_FIRST:
+            # on time, from the fix statistics (which also count a session that began with a fix,
+            # whose TTFF is not observed); else rebuilt from the first start's TTFF
+            after = fix[key] if _is_num(fix.get(key)) else _share_after(fix, avail, ttff_key, wanted)
+            if after is not None:
+                out[key] = after
     stream = analysis.get("stream") or {}
     if _is_num(stream.get("lines")) and _is_num(stream.get("bad_checksum")):
         out["checksum_error_share"] = stream["bad_checksum"] / max(stream["lines"], 1)
@@ -289,6 +308,11 @@ def derived(analysis: dict[str, Any]) -> dict[str, Any]:
     if _is_num(drift.get("e")) and _is_num(drift.get("n")):
         out["drift_h_mm_per_h"] = math.hypot(drift["e"], drift["n"])
     return out
+
+
+_AFTER_FIRST: tuple[tuple[str, str, Callable[[str], bool]], ...] = (
+    ("fix_share_after_first_fix", "ttff_s", lambda k: k != "none"),
+    ("rtk_fixed_share_after_first", "ttff_rtk_fixed_s", lambda k: k == "rtk_fixed"))
 
 
 def _share_after(fix: dict[str, Any], avail: dict[str, Any], ttff_key: str, wanted: Callable[[str], bool]) -> float | None:
@@ -363,7 +387,8 @@ def measure(analysis: dict[str, Any], t: Threshold) -> tuple[float | None, str]:
     try:
         value = resolve(analysis, t.path)
     except _Missing:
-        return None, "not measured"
+        why = (analysis.get("fix") or {}).get("ttff_note") if t.path.startswith("fix.ttff") else None
+        return None, f"not measured ({why})" if isinstance(why, str) else "not measured"
     if isinstance(value, list | tuple):
         values = [float(v) for v in value if _is_num(v)] if t.reduce not in (None, "count") else list(value)
         if not values and t.reduce not in (None, "count"):
@@ -376,12 +401,29 @@ def measure(analysis: dict[str, Any], t: Threshold) -> tuple[float | None, str]:
     return float(value), ""
 
 
+def _interval(analysis: dict[str, Any], path: str) -> tuple[float, float] | None:
+    try:
+        v = resolve(analysis, INTERVALS[path])
+    except (_Missing, KeyError):
+        return None
+    if isinstance(v, list) and len(v) == 2 and all(_is_num(x) for x in v):
+        return float(v[0]), float(v[1])
+    return None
+
+
 def evaluate(profile: Profile, analysis: dict[str, Any]) -> list[Result]:
     results = []
+    moving = (analysis.get("motion") or {}).get("state") == "moving"
+    span = (analysis.get("position") or {}).get("drift_span_s")
     for t in profile.thresholds:
         measured, note = measure(analysis, t)
-        passed = measured is not None and OPS[t.op](measured, t.limit)
+        if moving and t.path.startswith(STATIC_PREFIXES):
+            measured, note = None, "not measured (receiver moving)"
+        ci = _interval(analysis, t.path) if measured is not None else None
+        passed, inconclusive = False, False
+        if measured is not None:
+            passed, inconclusive, note = judge(OPS[t.op], t.limit, measured, ci, span if _is_num(span) else None)
         results.append(Result(name=t.name, metric=t.metric, measured=measured, limit=t.limit, op=t.op,
                               passed=passed, source=t.source, note=note, description=t.description,
-                              unit=t.unit, fix=t.fix))
+                              unit=t.unit, fix=t.fix, inconclusive=inconclusive, interval=ci))
     return results

@@ -16,7 +16,6 @@ from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any, TextIO
 
-from livefix.analysis.config import AnalysisConfig
 from livefix.check.profile import Profile, Result, evaluate
 from livefix.report.escape import term_text
 
@@ -54,6 +53,7 @@ class CheckOptions:
     stop: threading.Event = field(default_factory=threading.Event)
     progress: TextIO | None = None  # None: sys.stderr at the time of printing
     command: str = ""
+    wait: bool = False  # keep trying live sources that do not answer at start (--wait)
 
 
 @dataclass
@@ -88,14 +88,15 @@ class CheckRun:
         from livefix.sources import open_source
 
         self.o = opts
-        self.config = AnalysisConfig(ref=opts.ref)
-        self.rxs = [_Rx(n, s, open_source(s, speed=opts.speed)) for n, s in opts.sources]
+        self.config = opts.profile.config(opts.ref)  # the profile may state a convergence radius
+        self.rxs = [_Rx(n, s, open_source(s, speed=opts.speed, wait=opts.wait)) for n, s in opts.sources]
         self.complete = True
         self.reason = ""
         self.started = time.time()
         self._t0 = time.monotonic()
         self._last_progress = 0.0
         self.metrics: Any = None
+        self.could_not_run = ""  # a live source sent bytes but never NMEA (probe.NoNmeaWatch)
 
     # -- metrics ---------------------------------------------------------------------------
     def _metrics_view(self) -> dict[str, tuple[Any, dict[str, Any]]]:
@@ -178,6 +179,9 @@ class CheckRun:
                                  notes=self.o.site + ("; " + self.o.notes if self.o.notes else ""), publish_hz=5.0)
             if prof.ttff is not None:
                 rx.cycler = TTFFCycler(prof.ttff, rx.session.write, mark=rx.session.add_marker)
+        from livefix.sources.probe import no_nmea_watch
+
+        watches = {rx.name: None if self.o.wait else no_nmea_watch(rx.source) for rx in self.rxs}
         for rx in self.rxs:
             rx.session.start()
         try:
@@ -187,7 +191,15 @@ class CheckRun:
                     snap = rx.latest()
                     if rx.cycler is not None:
                         rx.cycler.step(snap)
+                    w = watches[rx.name]
+                    c = snap.counters if snap is not None else None
+                    problem = w.step(snap.mono, c.bytes, c.decoded + c.unknown) if w and c else None
+                    if problem and not self.could_not_run:
+                        self.could_not_run = f"{rx.name} ({rx.spec}): {problem}"
+                        self.complete, self.reason = False, self.could_not_run
                 self._tick(elapsed, limit)
+                if self.could_not_run:
+                    break
                 if self.o.stop.is_set():
                     self.complete, self.reason = False, "stopped by the user"
                     break
@@ -213,20 +225,24 @@ class CheckRun:
     def _tick(self, elapsed: float, limit: float | None) -> None:
         if not self._progress_due():
             return
+        from livefix.check import progress
+
         self._last_progress = time.monotonic()
-        parts = [f"{_hms(elapsed)}" + (f" / {_hms(limit)} ({_hms(max(0.0, limit - elapsed))} left)" if limit else "")]
+        parts, frac = [], None
         for rx in self.rxs:
             snap = rx.latest()
             if snap is None:
-                parts.append(f"{rx.name}: waiting")
+                parts.append(f"{rx.name}: {progress.rx_state(None, None)}")
                 continue
+            if rx.source.finite:
+                frac = progress.file_fraction(rx.spec, snap.counters.bytes)
             rx.results = evaluate(self.o.profile, snap.analysis)
-            bad = [r.name for r in rx.results if not r.passed]
-            state = "pass" if not bad else f"FAIL {len(bad)} ({', '.join(bad[:3])}{'...' if len(bad) > 3 else ''})"
-            fix = snap.epoch.fix if snap.epoch is not None else "none"
+            state = progress.rx_state(snap, [r.name for r in rx.results if not r.passed])
+            fix = f" {snap.epoch.fix}" if snap.epoch is not None else ""
             cyc = f" ttff {len(rx.cycler.cycles)}/{rx.cycler.cfg.n}" if rx.cycler is not None else ""
-            parts.append(f"{rx.name}: {snap.link} {fix} {state}{cyc}")
-        print(term_text("  ".join(parts)), file=self.o.progress or sys.stderr, flush=True)
+            parts.append(f"{rx.name}: {snap.link}{fix} {state}{cyc}")
+        line = "  ".join([progress.head(elapsed, limit, frac), *parts])
+        print(term_text(line), file=self.o.progress or sys.stderr, flush=True)
 
     # -- results ---------------------------------------------------------------------------
     def _report(self) -> dict[str, Any]:
@@ -246,8 +262,3 @@ class CheckRun:
         return build_report(runs, profile=self.o.profile, site=self.o.site, notes=self.o.notes, ref=self.o.ref,
                             started=self.started, ended=time.time(), complete=self.complete,
                             incomplete_reason=self.reason, command=self.o.command)
-
-
-def _hms(s: float) -> str:
-    s = int(max(0.0, s))
-    return f"{s // 3600:02d}:{s % 3600 // 60:02d}:{s % 60:02d}"

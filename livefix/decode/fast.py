@@ -17,11 +17,14 @@ every conversion goes through a bounded str -> value cache; a decode is then a f
 
 from __future__ import annotations
 
+import re
 from collections.abc import Callable
 from datetime import date, time
 from typing import Any
 
 from pynmeagps.nmeahelpers import date2utc, time2utc
+
+from livefix.timefmt import year_from_yy
 
 __all__ = ["FAST_DECODERS", "FAST_TYPES", "decode_fields", "parse_time", "parse_date", "parse_latlon"]
 
@@ -46,7 +49,7 @@ def parse_date(s: str) -> date | str:
         dd, mo, yy = int(s[0:2]), int(s[2:4]), int(s[4:6])
         if 1 <= dd <= 31 and 1 <= mo <= 12:
             try:
-                r = date(yy + (2000 if yy <= 68 else 1900), mo, dd)
+                r = date(year_from_yy(yy), mo, dd)  # the one pivot, livefix.timefmt.YY_PIVOT
             except ValueError:
                 r = ""
     return date2utc(s) if r is None else r
@@ -148,11 +151,38 @@ def _gsv(p: list[str]) -> dict[str, Any]:
     if k > _MAX_BLOCKS:
         raise OverflowError("too many satellite blocks")  # the caller falls back to pynmeagps
     # zip stops at the names, so a trailing signalID is never converted as an int.
-    d = dict(zip(_GSV_NAMES[k], map(_in_get, p), strict=False))
+    try:
+        d = dict(zip(_GSV_NAMES[k], map(_in_get, p), strict=False))
+    except ValueError:
+        d = _gsv_decimal_cn0(p, k)  # raises ValueError again unless only C/N0 had decimals
     j = 3 + 4 * k
     if j < n:
         d["signalID"] = p[j]
     return d
+
+
+_DECIMAL_CN0 = re.compile(r"[0-9]{1,2}\.[0-9]{1,3}")  # dd.d: within the field's 00-99 dB-Hz
+
+
+def _cn0(s: str) -> int | float | str:
+    """C/N0 as written: whole dB-Hz (the NMEA 0183 field is an integer 00-99), or with decimals as
+    some receivers write it (e.g. 48.4); the decimals are kept, they carry real information."""
+    try:
+        return _in_get(s)
+    except ValueError:
+        if _DECIMAL_CN0.fullmatch(s) is None:
+            raise
+        return float(s)
+
+
+def _gsv_decimal_cn0(p: list[str], k: int) -> dict[str, Any]:
+    """A GSV whose C/N0 fields carry decimals. The reference decoder refuses the whole line; that
+    would empty the sky of a receiver that is working fine, so this one deviation is deliberate and
+    tested (tests/decode/test_decode_fields.py). Every other field keeps the strict rules."""
+    names = _GSV_NAMES[k]
+    return {n: (_cn0(v) if i >= 3 and (i - 3) % 4 == 3 else _in_get(v))
+            for i, (n, v) in enumerate(zip(names, p, strict=False))} | (
+        {"signalID": p[3 + 4 * k]} if 3 + 4 * k < len(p) else {})
 
 
 def _plan_decoder(defs: tuple[tuple[str, _Cache], ...]) -> Callable[[list[str]], dict]:

@@ -21,6 +21,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--duration", help="stop after this long, e.g. 90s, 30m, 24h, 7d")
     p.add_argument("--gzip", action="store_true", help="compress (still readable after a crash)")
     p.add_argument("--rotate", help="start a new numbered file every interval, e.g. 1h")
+    p.add_argument("--wait", action="store_true", help="keep trying a source that does not answer at start "
+                   "(refused or unknown TCP host, device not plugged in yet) and that sends no NMEA; without "
+                   "it such a source is an error (exit 2). Once connected, a lost source is always retried")
 
 
 def _fail(msg: str) -> int:
@@ -39,6 +42,7 @@ def _human(n: float) -> str:
 def run(args: argparse.Namespace) -> int:
     from livefix.record.writer import Recorder
     from livefix.sources import open_source
+    from livefix.sources.probe import check_file, first_contact, no_nmea_watch
 
     try:
         duration = parse_duration(args.duration) if args.duration else None
@@ -49,7 +53,9 @@ def run(args: argparse.Namespace) -> int:
     except ValueError as exc:
         return _fail(str(exc))
     try:
-        src = open_source(args.source, baud=baud, speed=None)
+        src = open_source(args.source, baud=baud, speed=None, wait=args.wait)
+        first_contact(src, wait=args.wait)
+        check_file(src)
     except SourceError as exc:
         return _fail(str(exc))
     output = args.output
@@ -72,6 +78,7 @@ def run(args: argparse.Namespace) -> int:
     link, chunks, nbytes = Link.CONNECTING, 0, 0
     tty = sys.stderr.isatty()
     gen = src.items(stop)
+    watch = None if args.wait else no_nmea_watch(src)
     rc = 0
     try:
         if timer:
@@ -88,6 +95,10 @@ def run(args: argparse.Namespace) -> int:
                 nbytes += len(getattr(item, "data", b""))
             if rec.error:
                 print(f"\nlivefix record: {rec.error}", file=sys.stderr)
+                rc = 2
+                break
+            if watch is not None and (problem := watch.feed(item)):  # every byte is kept all the same
+                print(f"\nlivefix record: {src.name}: {problem} (recorded in {rec.path})", file=sys.stderr)
                 rc = 2
                 break
             now = time.monotonic()

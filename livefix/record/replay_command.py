@@ -15,8 +15,6 @@ from typing import Any
 from livefix.sources.base import Chunk, LinkEvent, SourceError
 from livefix.sources.link import nmea_ok
 
-SKY_SAMPLE_EVERY = 200  # items between looks at the sky for the per-constellation satellite count
-
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("file", help="a .lfr/.lfr.gz recording, the base name of a rotated set, or an NMEA log")
@@ -48,9 +46,11 @@ def run(args: argparse.Namespace) -> int:
         else:
             return int(run_replay(args) or 0)
     from livefix.sources.file import FileSource
+    from livefix.sources.probe import check_file
 
     try:
         src = FileSource(args.file, speed=speed)
+        check_file(src)
     except SourceError as exc:
         print(f"livefix replay: {exc}", file=sys.stderr)
         return 2
@@ -67,19 +67,16 @@ def summarize(src: Any) -> dict[str, Any]:
         pipe = Pipeline(source=src.name)
     except ImportError:
         pipe = None
-    sats: set[tuple[str, int]] = set()
     links: Counter[str] = Counter()
     markers = 0
     fallback = _Fallback() if pipe is None else None
-    for n, item in enumerate(src.items(threading.Event())):
+    for item in src.items(threading.Event()):
         if type(item) is LinkEvent:
             links[item.state] += 1
         elif type(item) is not Chunk:
             markers += 1
         if pipe is not None:
             pipe.feed(item)
-            if n % SKY_SAMPLE_EVERY == 0:
-                sats.update((s.system, s.prn) for s in pipe.state.sky())
         elif type(item) is Chunk:
             fallback.feed(item.data)
     out: dict[str, Any] = {"file": src.name, "recording": src.recording, "damage": src.damage,
@@ -88,12 +85,14 @@ def summarize(src: Any) -> dict[str, Any]:
         out.update(fallback.summary())
         return out
     pipe.finish()
-    sats.update((s.system, s.prn) for s in pipe.state.sky())
     snap = pipe.snapshot()
     c, stream = snap.counters, snap.analysis.get("stream", {})
-    by_sys = Counter(sys_ for sys_, _ in sats)
+    # every satellite ever listed in view, counted exactly by the analysis (livefix.analysis.sky)
+    # (finish() closed the last epoch, so every set received is in some epoch's satellites)
+    by_sys = Counter(snap.analysis.get("sky", {}).get("seen") or {})
     out.update(lines=c.lines, by_type=dict(c.by_type), bad_checksum=c.bad_checksum,
                malformed=c.malformed, unknown=c.unknown, junk_bytes=c.junk_bytes, bytes=c.bytes,
+               binary_frames=c.binary_frames, binary_bytes=c.binary_bytes,
                epochs=stream.get("epochs"), rate_hz=stream.get("rate_hz"),
                satellites=dict(sorted(by_sys.items())),
                fix_types=sorted(k for k, v in (snap.analysis.get("fix", {}).get("availability") or {}).items()
@@ -133,6 +132,8 @@ def format_summary(s: dict[str, Any]) -> str:
     if s.get("header", {}).get("notes"):
         rows.append("notes: " + " | ".join(str(s["header"]["notes"]).splitlines()))
     rows.append(f"lines: {s.get('lines')}  bytes: {s.get('bytes')}  junk bytes: {s.get('junk_bytes', '-')}")
+    if s.get("binary_frames"):
+        rows.append(f"binary: {s['binary_frames']} frames ({s.get('binary_bytes')} bytes), not counted as NMEA")
     types = ", ".join(f"{k} {v}" for k, v in sorted(s.get("by_type", {}).items())) or "none"
     rows.append(f"sentences: {types}")
     rows.append(f"checksum errors: {s.get('bad_checksum')}  malformed: {s.get('malformed', '-')}  "

@@ -56,11 +56,13 @@ def run(args: argparse.Namespace) -> int:
     from livefix.parallel import AnalysisProcessError, want_split
     from livefix.report.document import ReceiverRun, build_report, to_json, write_all
     from livefix.sources import SourceError, open_source
+    from livefix.sources.probe import check_file
 
     try:
         ref = parse_ref(args.ref) if args.ref else None
         profile = load_profile(args.profile) if args.profile else None
         src = open_source(args.file, speed=None)
+        check_file(src)  # no NMEA at all: say what the file holds instead of an empty report
     except (ProfileError, SourceError, ValueError) as exc:
         print(f"livefix report: {term_text(exc)}", file=sys.stderr)
         return 2
@@ -68,7 +70,8 @@ def run(args: argparse.Namespace) -> int:
         print(f"livefix report: {term_text(args.file)} is not a file or recording", file=sys.stderr)
         return 2
     try:
-        snap = _analyse(src, AnalysisConfig(ref=ref), want_split(args.jobs, args.file))
+        cfg = profile.config(ref) if profile is not None else AnalysisConfig(ref=ref)  # profile: convergence radius
+        snap = _analyse(src, cfg, want_split(args.jobs, args.file))
     except AnalysisProcessError as exc:
         print(f"livefix report: {term_text(exc)}", file=sys.stderr)
         return 2

@@ -39,6 +39,10 @@ KEY_FIGURES: tuple[tuple[str, str, str, int], ...] = (
     ("Vertical 95 %", "position.v95_m", "m", 3),
     ("Longest outage", "fix.longest_outage_s", "s", 1),
     ("Jumps", "fix.jumps_total", "count", 0),
+    ("Position jumps left out of the scatter", "position.jumps.count", "count", 0),
+    ("Share of the session moving", "motion.moving_share", "ratio", 3),
+    ("Convergence after first fix", "position.convergence_s", "s", 1),
+    ("Horizontal drift", "derived.drift_h_mm_per_h", "mm/h", 1),
     ("Stalls", "stream.stall_count", "count", 0),
     ("Checksum errors", "stream.bad_checksum", "count", 0),
     ("Mean C/N0", "signal.cn0_mean_dbhz", "dB-Hz", 1),
@@ -65,7 +69,18 @@ class ReceiverRun:
     @property
     def verdict(self) -> str | None:
         ok = self.passed
-        return None if ok is None else ("pass" if ok else "fail")
+        if ok is None:
+            return None
+        if ok:
+            return "pass"
+        return "inconclusive" if self.inconclusive else "fail"
+
+    @property
+    def inconclusive(self) -> bool:
+        """Not passed only because some figures' 95 % intervals straddle their limits (run longer)."""
+        bad = [r for r in self.results or [] if not r.passed]
+        ttff_ok = self.ttff_cycles is None or bool(self.ttff_cycles.get("passed", False))
+        return bool(bad) and ttff_ok and all(getattr(r, "inconclusive", False) for r in bad)
 
     @property
     def passed(self) -> bool | None:
@@ -97,6 +112,8 @@ def build_report(runs: list[ReceiverRun], *, profile: Any = None, site: str = ""
         verdict = "incomplete"
     else:
         verdict = "pass" if runs and all(v is True for v in verdicts) else "fail"
+        if verdict == "fail" and runs and all(r.verdict in ("pass", "inconclusive") for r in runs):
+            verdict = "inconclusive"  # nothing failed; some intervals straddle their limits
     meta = {
         "livefix_version": __version__, "generated": iso(time.time()), "command": command,
         "site": site, "notes": notes,
@@ -207,7 +224,8 @@ def data_span(report: dict[str, Any]) -> str:
         dur, n, hz = st.get("duration_s"), st.get("epochs"), st.get("rate_hz")
         if dur is None:
             continue
-        parts.append(f"{r.get('name')}: {fmt_value(dur, 0, 's')} of data, {n} epochs at {fmt_value(hz, 1)} Hz")
+        parts.append(f"{r.get('name')}: {fmt_value(dur, 0, 's')} of data, {n} epochs at {fmt_value(hz, 1)} Hz"
+                     + ("; date unknown (times are UTC time of day)" if st.get("date_known") is False else ""))
     return "; ".join(parts) or "-"
 
 
@@ -226,3 +244,56 @@ def meta_facts(report: dict[str, Any]) -> list[tuple[str, str]]:
         r = meta["ref"]
         facts.append(("Reference point", f"{r['lat']:.9f}, {r['lon']:.9f}, {r['h']:.3f} m (ellipsoidal)"))
     return facts
+
+
+def position_facts(analysis: dict[str, Any]) -> list[tuple[str, str]]:
+    """The static receiver's position figures for people: motion, scatter per fix type, jumps left
+    out, convergence and drift as value +- half its 95 % interval (thresholds used are named)."""
+    p, m = analysis.get("position") or {}, analysis.get("motion") or {}
+    out: list[tuple[str, str]] = []
+    state, share = m.get("state"), m.get("moving_share")
+    if state == "moving":
+        out.append(("Motion", f"the receiver moved ({fmt_value(share * 100 if share is not None else None, 0)} % "
+                              "of fixed epochs): static figures not measured (receiver moving)"))
+    elif state == "mixed":
+        out.append(("Motion", f"the receiver moved for {fmt_value(share * 100, 1)} % of fixed epochs; static "
+                              f"figures cover the longest of {p.get('segments')} static segment(s)"))
+    elif state == "static":
+        out.append(("Motion", "static for the whole session"))
+    rule = m.get("rule") or {}
+    if rule:
+        out.append(("Motion rule", f"moving when the position moves more than {rule.get('spread_m')} m in each "
+                                   f"half of {rule.get('window_s')} s and the speed over ground (when given) "
+                                   f"exceeds {rule.get('speed_mps')} m/s"))
+    for fix, f in (p.get("by_fix") or {}).items():
+        out.append((f"Scatter {fix}", f"{fmt_value((f.get('share') or 0) * 100, 1)} % of settled epochs; CEP50 "
+                                      f"{fmt_value(f.get('cep50_m'), 3, 'm')}, CEP95 {fmt_value(f.get('cep95_m'), 3, 'm')}, "
+                                      f"V95 {fmt_value(f.get('v95_m'), 3, 'm')} (about the mean)"))
+    j = p.get("jumps") or {}
+    if j:
+        out.append(("Jumps left out", f"{j.get('count', 0)} ({j.get('excluded_epochs', 0)} epochs, "
+                                      f"{fmt_value(j.get('excluded_s'), 1, 's')}); " + "; ".join(
+                                          f"{x.get('start')}: {fmt_value(x.get('size_h_m'), 3, 'm')} for "
+                                          f"{fmt_value(x.get('duration_s'), 1, 's')} ({x.get('end')})"
+                                          for x in (j.get("items") or [])[-5:])))
+    c = p.get("convergence") or {}
+    if c:
+        out.append(("Convergence", f"horizontal {fmt_value(p.get('convergence_s'), 1, 's')} within "
+                                   f"{fmt_value(c.get('radius_h_m'), 3, 'm')}, vertical "
+                                   f"{fmt_value(p.get('convergence_v_s'), 1, 's')} within "
+                                   f"{fmt_value(c.get('radius_v_m'), 3, 'm')}, from the first fix, of the "
+                                   f"{c.get('centre')}"))
+    d, ci = p.get("drift_mm_per_h"), p.get("drift_ci95_mm_per_h") or {}
+    if isinstance(d, dict):
+        axes = []
+        for k in ("e", "n", "u"):
+            iv = ci.get(k)
+            pm = f" ± {fmt_value((iv[1] - iv[0]) / 2, 1)}" if isinstance(iv, list) and None not in iv else ""
+            axes.append(f"{k} {fmt_value(d.get(k), 1)}{pm}")
+        hi = p.get("drift_h_ci95_mm_per_h")
+        hz = (f"; horizontal {fmt_value(p.get('drift_h_mm_per_h'), 1)} (95 % interval {fmt_value(hi[0], 1)} .. "
+              f"{fmt_value(hi[1], 1)})") if isinstance(hi, list) and None not in hi else ""
+        out.append(("Drift mm/h (95 %)", ", ".join(axes) + hz))
+    if p.get("height_datum") == "msl":
+        out.append(("Heights", "above mean sea level only (no geoid separation given): not ellipsoidal"))
+    return out

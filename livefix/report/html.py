@@ -8,7 +8,7 @@ from __future__ import annotations
 
 from typing import Any
 
-from livefix.report.document import fmt_value, meta_facts
+from livefix.report.document import fmt_value, meta_facts, position_facts
 from livefix.report.escape import html_text as h
 from livefix.report.markdown import VERDICT_WORDS, results_rows, sector_text
 
@@ -17,7 +17,7 @@ body{font-family:system-ui,sans-serif;margin:1.5em auto;max-width:70em;color:#22
 h1{margin-bottom:.2em} table{border-collapse:collapse;margin:.6em 0} td,th{border:1px solid #bbb;
 padding:.2em .5em;text-align:left;vertical-align:top} th{background:#eee}
 .verdict{display:inline-block;padding:.2em .8em;border:2px solid;font-weight:bold}
-.pass{color:#1a6b1a} .fail{color:#a40000} .incomplete,.none{color:#7a5a00}
+.pass{color:#1a6b1a} .fail{color:#a40000} .incomplete,.inconclusive,.none{color:#7a5a00}
 .caution{border-left:4px solid #c4a000;background:#fffbe6;padding:.4em .8em}
 figure{display:inline-block;margin:.5em;vertical-align:top} figure svg{max-width:34em;height:auto}
 figcaption{font-size:.9em;color:#444} .note{color:#666;font-style:italic}
@@ -32,7 +32,7 @@ def _table(head: list[str], rows: list[list[str]]) -> str:
 
 
 def _verdict(v: str | None) -> str:
-    cls = v if v in ("pass", "fail", "incomplete") else "none"
+    cls = v if v in ("pass", "fail", "incomplete", "inconclusive") else "none"
     return f'<span class="verdict {cls}">{h(VERDICT_WORDS.get(v, v))}</span>'
 
 
@@ -73,9 +73,13 @@ def _receiver(rx: dict[str, Any], with_plots: bool) -> str:
     if rx.get("results") is not None:
         rows = []
         for cells in results_rows(rx["results"]):
-            mark = '<b class="fail">FAIL</b>' if "FAIL" in cells[0] else '<b class="pass">pass</b>'
+            mark = ('<b class="fail">FAIL</b>' if "FAIL" in cells[0] else '<b class="inconclusive">inconclusive</b>'
+                    if cells[0] == "inconclusive" else '<b class="pass">pass</b>')
             rows.append([mark] + [h(c) for c in cells[1:]])
         parts.append(_table(["Result", "Check", "Metric", "Measured", "Limit", "Source"], rows))
+    pos = position_facts(rx.get("analysis") or {})
+    if pos:
+        parts.append("<h3>Position (static receiver)</h3>" + _table(["Item", "Value"], [[h(k), h(v)] for k, v in pos]))
     cyc = rx.get("ttff_cycles")
     if cyc:
         parts.append(f"<h3>TTFF cycles ({h(cyc.get('kind'))})</h3><p>min {h(fmt_value(cyc.get('min_s'), 1, 's'))}, "
@@ -105,7 +109,8 @@ def _receiver(rx: dict[str, Any], with_plots: bool) -> str:
                                                        for e in events[-50:]]))
     stream = a.get("stream") or {}
     if stream:
-        keys = ("lines", "epochs", "bad_checksum", "malformed", "unknown", "junk_bytes", "overlong", "rate_hz")
+        keys = ("lines", "epochs", "bad_checksum", "malformed", "unknown", "junk_bytes", "overlong",
+                "binary_frames", "binary_bytes", "rate_hz")
         parts.append("<h3>Stream</h3>" + _table(["Figure", "Value"], [[h(k), h(stream.get(k))] for k in keys
                                                                       if k in stream]))
     parts.append("</section>")

@@ -26,6 +26,8 @@ def render_junit(report: dict[str, Any]) -> str:
     total = fails = errors = 0
     host = x(socket.gethostname())
     stamp = (meta.get("started") or meta.get("generated") or "").rstrip("Z")[:19]
+    if stamp.startswith("T"):  # a time of day without a date (livefix.timefmt): xs:dateTime needs one
+        stamp = ""
     for rx in report.get("receivers", []):
         suite = ET.SubElement(root, "testsuite")
         cls = f"livefix.{prof}.{rx['name']}"

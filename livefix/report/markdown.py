@@ -5,10 +5,11 @@ from __future__ import annotations
 
 from typing import Any
 
-from livefix.report.document import fmt_value, meta_facts
+from livefix.report.document import fmt_value, meta_facts, position_facts
 from livefix.report.escape import md_text
 
-VERDICT_WORDS = {"pass": "PASS", "fail": "FAIL", "incomplete": "INCOMPLETE (run ended early)", None: "no verdict"}
+VERDICT_WORDS = {"pass": "PASS", "fail": "FAIL", "incomplete": "INCOMPLETE (run ended early)",
+                 "inconclusive": "INCONCLUSIVE (run longer)", None: "no verdict"}
 
 
 def _row(cells: list[str]) -> str:
@@ -21,7 +22,10 @@ def results_rows(results: list[dict[str, Any]]) -> list[list[str]]:
         measured = fmt_value(r["measured"], 4, r.get("unit", "")) if r["measured"] is not None else r["note"]
         limit = f"{r['op']} {fmt_value(r['limit'], 4, r.get('unit', ''))}"
         fix = f" ({r['fix']})" if r.get("fix") else ""
-        rows.append(["pass" if r["passed"] else "**FAIL**", r["name"], r["metric"] + fix, measured, limit,
+        mark = "pass" if r["passed"] else ("inconclusive" if r.get("inconclusive") else "**FAIL**")
+        if r["measured"] is not None and r.get("interval95"):
+            measured += f" (95 %: {fmt_value(r['interval95'][0], 4)} .. {fmt_value(r['interval95'][1], 4)})"
+        rows.append([mark, r["name"], r["metric"] + fix, measured, limit,
                      r.get("source", "")])
     return rows
 
@@ -64,6 +68,11 @@ def receiver_section(rx: dict[str, Any]) -> list[str]:
             op, _, limit = cells[4].partition(" ")  # the operator is one of ours; the unit may be the user's
             out.append(_row([cells[0]] + [md_text(c) for c in cells[1:4]] + [f"{op} {md_text(limit)}",
                                                                               md_text(cells[5])]))
+        out.append("")
+    pos = position_facts(rx.get("analysis") or {})
+    if pos:
+        out += ["### Position (static receiver)", "", _row(["Item", "Value"]), _row(["---", "---"])]
+        out += [_row([md_text(k), md_text(v)]) for k, v in pos]
         out.append("")
     cyc = rx.get("ttff_cycles")
     if cyc:

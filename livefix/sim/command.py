@@ -14,6 +14,7 @@ import tty
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
+from livefix.sim.dialects import DIALECTS
 from livefix.sim.receiver import SimReceiver
 from livefix.sim.scenario import Scenario, list_scenarios
 from livefix.timefmt import parse_duration
@@ -28,6 +29,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    "(default 10m for -o, endless otherwise)")
     p.add_argument("--rate", type=int, default=10, help="epochs per second, 1-20 (default 10)")
     p.add_argument("--seed", type=int, default=1, help="noise seed (default 1)")
+    p.add_argument("--dialect", default=None, metavar="NAME[,NAME...]",
+                   help="make the receiver speak like real ones do (a rate dialect overrides --rate): "
+                   + ", ".join(DIALECTS))
     p.add_argument("--speed", type=float, default=1.0, help="time factor for --serve/--pty (default 1)")
     out = p.add_mutually_exclusive_group(required=True)
     out.add_argument("-o", "--output", metavar="FILE", help="write FILE (.nmea/.txt/.log plain NMEA, "
@@ -38,13 +42,14 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 
 def run(args: argparse.Namespace) -> int:
     sc = Scenario.load(args.scenario)
-    rx = SimReceiver(sc, rate_hz=args.rate, seed=args.seed)
+    rx = SimReceiver(sc, rate_hz=args.rate, seed=args.seed, dialect=args.dialect)
     if args.speed <= 0:
         raise ValueError(f"--speed {args.speed}: must be positive")
     duration = parse_duration(args.duration) if args.duration else None
     if args.output:
         n = write_file(rx, Path(args.output), 600.0 if duration is None else duration)
-        print(f"wrote {args.output}: {n} bytes, {sc.name}, {args.rate} Hz, seed {args.seed}", file=sys.stderr)
+        dialect = f", dialect {','.join(rx.dialects.names)}" if rx.dialects else ""
+        print(f"wrote {args.output}: {n} bytes, {sc.name}, {rx.rate} Hz, seed {args.seed}{dialect}", file=sys.stderr)
         return 0
     if args.serve:
         return serve(rx, args.serve, duration, args.speed)
@@ -67,7 +72,8 @@ def write_file(rx: SimReceiver, path: Path, duration: float, compress: str | Non
 
     start = rx.start_utc
     rec = Recorder(path, source=f"sim:{rx.sc.name}", compress="gzip" if name.endswith(".gz") else compress,
-                   notes=f"simulated receiver: scenario {rx.sc.name}, {rx.rate} Hz, seed {rx.seed}",
+                   notes=f"simulated receiver: scenario {rx.sc.name}, {rx.rate} Hz, seed {rx.seed}"
+                   + (f", dialect {','.join(rx.dialects.names)}" if rx.dialects else ""),
                    start_wall=start)
     total = 0
     try:

@@ -7,7 +7,7 @@ Built by hand rather than by a library serializer so that the bytes are exact an
 from __future__ import annotations
 
 import datetime as _dt
-from collections.abc import Sequence
+from collections.abc import Iterable, Sequence
 
 # RINEX letter -> GSV talker and NMEA 4.10+ system id (REFERENCES.md "NMEA 0183").
 TALKER = {"G": "GP", "R": "GL", "E": "GA", "C": "GB"}
@@ -119,3 +119,42 @@ def zda(tk: str, d: _dt.datetime) -> bytes:
 def ack(kind: str) -> bytes:
     """Our proprietary acknowledgement of a restart command."""
     return sentence(f"PLFX,ACK,RESET,{kind.upper()}")
+
+
+# ----- reading our own sentences back (for the dialects, livefix.sim.dialects) ------------------
+def split(s: bytes) -> tuple[str, list[str]] | None:
+    """(address, fields) of a '$' sentence, or None for anything else."""
+    if not s.startswith(b"$") or b"*" not in s:
+        return None
+    body = s[1:s.rindex(b"*")].decode("ascii", "replace")
+    addr, *fields = body.split(",")
+    return addr, fields
+
+
+def join(addr: str, fields: Iterable[str]) -> bytes:
+    """A sentence from its address and fields, with its checksum."""
+    return sentence(",".join((addr, *fields)))
+
+
+def kind(s: bytes) -> str:
+    """Sentence formatter ('GGA') of a standard sentence; '' for proprietary and non-NMEA."""
+    return s[3:6].decode("ascii", "replace") if s[:1] == b"$" and s[1:2] != b"P" and len(s) > 6 else ""
+
+
+def drop(parts: list[bytes], kinds: Sequence[str]) -> list[bytes]:
+    return [p for p in parts if kind(p) not in kinds]
+
+
+def centiseconds(time_field: str) -> int | None:
+    """'hhmmss.ss' -> centiseconds of day."""
+    try:
+        h, m, s = int(time_field[:2]), int(time_field[2:4]), float(time_field[4:])
+    except ValueError:
+        return None
+    return (h * 3600 + m * 60) * 100 + round(s * 100)
+
+
+def time_field(cs: int) -> str:
+    """Centiseconds of day -> 'hhmmss.ss' (wrapping at midnight)."""
+    s, c = divmod(cs % 8_640_000, 100)
+    return f"{s // 3600:02d}{s // 60 % 60:02d}{s % 60:02d}.{c:02d}"

@@ -5,6 +5,8 @@ bytes already contain scripted garbage and corrupted sentences, and a stall yiel
 its span. Satellite state (tracking, C/N0, used set, DOP) is refreshed once per second, position
 every epoch. Ground truth of the latest epoch is in `rx.last`, the antenna position in `rx.truth`.
 
+Receiver dialects (livefix.sim.dialects) rewrite each epoch's sentences before the scripted faults.
+
 Restart command (our own proprietary sentence, checksum optional): `$PLFX,RESET,COLD*hh`
 (also WARM, HOT), acknowledged with `$PLFX,ACK,RESET,COLD*hh`.
 """
@@ -17,14 +19,15 @@ import re
 import threading
 import zlib
 from collections import deque
-from collections.abc import Iterator
+from collections.abc import Iterator, Sequence
 from dataclasses import dataclass
 
 import numpy as np
 
 from livefix import geodesy
 from livefix.sim import nmea
-from livefix.sim.errors import SYSTEM_CN0_OFFSET, UERE, PositionError, cn0_model
+from livefix.sim.dialects import DialectChain, EpochCtx
+from livefix.sim.errors import GRID_HZ, SYSTEM_CN0_OFFSET, UERE, PositionError, cn0_model
 from livefix.sim.orbits import Constellation
 from livefix.sim.scenario import FIX_ORDER, Fault, Scenario
 
@@ -69,21 +72,26 @@ class EpochTruth:
 
 class SimReceiver:
     def __init__(self, scenario: Scenario, rate_hz: float = 10, seed: int = 1,
-                 start_utc: float | None = None) -> None:
+                 start_utc: float | None = None, dialect: str | Sequence[str] | None = None) -> None:
+        """dialect: receiver dialects (livefix.sim.dialects), e.g. "zda-late,binary"; a rate
+        dialect overrides rate_hz. None: the scenario's own `dialect` key."""
         if not (1 <= rate_hz <= 20) or float(rate_hz) != int(rate_hz):
             raise ValueError(f"sim rate {rate_hz!r} Hz: use a whole number from 1 to 20")
         self.sc = scenario
-        self.rate = int(rate_hz)
         self.seed = seed
+        salt = zlib.crc32(scenario.name.encode())
+        self.dialects = DialectChain(scenario.dialect if dialect is None else dialect, seed, salt)
+        self.rate = self.dialects.rate or int(rate_hz)
         self.start_utc = scenario.start_utc if start_utc is None else float(start_utc)
         self.truth = Truth(scenario.lat, scenario.lon, scenario.h, scenario.sep)
         self.frame = geodesy.LocalFrame(scenario.lat, scenario.lon, scenario.h)
-        salt = zlib.crc32(scenario.name.encode())
+        self._ecef = tuple(float(v) for v in geodesy.geodetic_to_ecef(scenario.lat, scenario.lon, scenario.h))
         self.const = Constellation(scenario.systems, np.random.default_rng(ORBIT_SEED))
         self._rng_err = np.random.default_rng([seed, salt, 1])
         self._rng_cn0 = np.random.default_rng([seed, salt, 2])
         self._rng_bad = np.random.default_rng([seed, salt, 3])
         self._rng_acq = np.random.default_rng([seed, salt, 4])
+        self._rng_vel = np.random.default_rng([seed, salt, 5])
         self._sat_off = self._rng_cn0.normal(0.0, 1.5, len(self.const)) + np.array(
             [SYSTEM_CN0_OFFSET[s] for s in self.const.systems])
         self._sys_arr = np.array(self.const.systems)
@@ -100,6 +108,7 @@ class SimReceiver:
         self._sats: tuple[SatTruth, ...] = ()
         self._dop: dict[str, float] | None = None
         self._fix_type_since = ("none", 0.0)
+        self._prev_fix = "none"
         self._clock_lost_at: float | None = None  # cold restart time while UTC is unknown
 
     # ----- commands -------------------------------------------------------------------------
@@ -230,13 +239,14 @@ class SimReceiver:
         else:
             dop = self._dop or {}
             sig = self._err.sigmas(fix, dop["hdop"], dop["vdop"], t - self._fix_type_since[1])
-            e = self._err.step(dt, fix, sig)
+            resume = self._prev_fix == "none"
+            e = self._err.at(round(t * GRID_HZ), fix if resume else self._prev_fix, fix, sig, resume)
             for f in jump:
                 a = math.radians(f.azimuth_deg)
                 e = e + np.array([f.offset_m * math.sin(a), f.offset_m * math.cos(a), f.up_m])
             err = (float(e[0]), float(e[1]), float(e[2]))
             lat, lon, h = self.frame.geodetic(*err)
-            vel = self._rng_err.normal(0.0, 0.01 + sig[0] * 0.02, 2)
+            vel = self._rng_vel.normal(0.0, 0.01 + sig[0] * 0.02, 2)
             sog, cog = float(math.hypot(*vel)) / 0.514444, math.degrees(math.atan2(vel[0], vel[1])) % 360.0
             diff = fix not in ("single",)
             age, st = (1.0, _STATION) if diff else (None, None)
@@ -248,16 +258,21 @@ class SimReceiver:
         if fix != "none":
             rms = 0.8 * UERE[fix][0]  # range residual RMS: a share of the UERE (invented)
             parts.append(nmea.gst(tk, d, rms, sig[1], sig[0], sig[2]))
-        if round(t * self.rate) % self.rate == 0:  # satellites and date once a second
+        whole = round(t * self.rate) % self.rate == 0
+        if whole:  # satellites and date once a second
             for s in sc.systems:
                 parts += nmea.gsv(s, [(x.prn, max(0, round(x.el)), round(x.az) % 360, x.cn0)
                                       for x in self._sats if x.system == s])
             parts.append(nmea.zda(tk, d))
+        self._prev_fix = fix
+        if self.dialects:
+            by_sys = {s: sum(1 for x in used if x.system == s) for s in sc.systems}
+            parts = self.dialects.apply(EpochCtx(t, self.rate, fix, whole, sc.systems, by_sys, self._ecef), parts)
         stalled = bool(self._faults(t, "stall"))
         corrupted = garbage = 0
         for f in self._faults(t, "checksum"):
             for i, p in enumerate(parts):
-                if self._rng_bad.random() < f.fraction:
+                if p[:1] == b"$" and self._rng_bad.random() < f.fraction:  # sentences, not binary frames
                     parts[i] = _corrupt(p, self._rng_bad)
                     corrupted += 1
         for f in self._faults(t, "garbage"):

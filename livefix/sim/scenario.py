@@ -78,6 +78,7 @@ class Scenario:
     multipath: tuple[Sector, ...] = ()
     faults: tuple[Fault, ...] = ()
     path: str = ""
+    dialect: tuple[str, ...] = ()  # receiver dialects (livefix.sim.dialects), in application order
 
     @property
     def start_iso(self) -> str:
@@ -109,7 +110,8 @@ def list_scenarios() -> list[str]:
     return sorted(f.name[:-5] for f in d.iterdir() if f.name.endswith(".toml"))
 
 
-_TOP = {"name", "description", "start_utc", "site", "receiver", "fix", "restart", "mask", "multipath", "faults"}
+_TOP = {"name", "description", "start_utc", "site", "receiver", "fix", "restart", "mask", "multipath", "faults",
+        "dialect"}
 _SITE = {"name", "lat", "lon", "h", "sep"}
 _RECEIVER = {"systems", "elevation_mask_deg", "cn0_5deg", "cn0_zenith", "cn0_noise_db", "track_min_cn0"}
 _FIX = {"ttff_s", "dgnss_after_s", "float_after_s", "fixed_after_s", "best"}
@@ -145,6 +147,12 @@ def _from_dict(d: dict[str, Any], label: str) -> Scenario:
         if best not in FIX_ORDER[1:]:
             raise ValueError(f"fix.best {best!r} (use one of {', '.join(FIX_ORDER[1:])})")
         restart = {"cold": 35.0, "warm": 20.0, "hot": 3.0} | {k: float(v) for k, v in d.get("restart", {}).items()}
+        from livefix.sim.dialects import parse as parse_dialects
+
+        try:
+            dialect = parse_dialects(d.get("dialect"))
+        except ValueError as exc:
+            raise ValueError(f"dialect: {exc}") from None
         return Scenario(
             name=str(d.get("name", Path(label).stem)), description=str(d.get("description", "")),
             site_name=str(site.get("name", "")), start_utc=start.timestamp(),
@@ -154,7 +162,8 @@ def _from_dict(d: dict[str, Any], label: str) -> Scenario:
             cn0_noise_db=float(rcv.get("cn0_noise_db", 1.0)), track_min_cn0=float(rcv.get("track_min_cn0", 24.0)),
             ttff_s=float(fix.get("ttff_s", 30.0)), dgnss_after_s=float(fix.get("dgnss_after_s", 5.0)),
             float_after_s=float(fix.get("float_after_s", 15.0)), fixed_after_s=float(fix.get("fixed_after_s", 40.0)),
-            best_fix=best, restart_ttff_s=restart, masks=masks, multipath=mps, faults=faults, path=label)
+            best_fix=best, restart_ttff_s=restart, masks=masks, multipath=mps, faults=faults, path=label,
+            dialect=dialect)
     except KeyError as exc:
         raise ValueError(f"{label}: missing key {exc.args[0]!r}") from exc
     except (TypeError, ValueError) as exc:

@@ -14,13 +14,14 @@ __all__ = ["Chunk", "Item", "Link", "LinkEvent", "Marker", "Source", "SourceErro
 
 
 def open_source(spec: str, *, baud: int | str = "auto", speed: float | None = None, rate_hz: float = 10.0,
-                seed: int = 1) -> Source:
+                seed: int = 1, wait: bool = False) -> Source:
     """Return the Source for `spec`.
 
     speed: for files/recordings, None or 0 = as fast as possible, 1.0 = real time, N = ×N;
            for sim: 1.0 = real time (default for sim is real time when speed is None).
     rate_hz, seed: for sim only.
+    wait: a device path that does not exist yet is accepted (the source retries until it appears).
     """
     from livefix.sources.open import open_source as _open
 
-    return _open(spec, baud=baud, speed=speed, rate_hz=rate_hz, seed=seed)
+    return _open(spec, baud=baud, speed=speed, rate_hz=rate_hz, seed=seed, wait=wait)

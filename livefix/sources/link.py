@@ -89,5 +89,12 @@ class NmeaCounter:
         buf = self._tail + data
         *lines, self._tail = buf.split(b"\n")
         self._tail = self._tail[-256:]
-        self.good += sum(1 for ln in lines if nmea_ok(ln))
+        self.good += sum(1 for ln in lines if nmea_ok(_from_start(ln)))
         return self.good
+
+
+def _from_start(line: bytes) -> bytes:
+    """The line from its last '$' or '!': junk glued in front of a sentence (a glitch, the tail of
+    a binary frame) does not hide the sentence, as the framer would not let it either."""
+    k = max(line.rfind(b"$"), line.rfind(b"!"))
+    return line[k:] if k > 0 else line

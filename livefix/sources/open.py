@@ -1,5 +1,6 @@
 """Command-line spec -> Source. Fails fast (SourceError, one line) only when a source cannot
-ever work: a bad spec or a file/device path that does not exist at start."""
+ever work: a bad spec or a file/device path that does not exist at start (a device may be
+waited for with `wait`). Whether a live source answers is asked later, by probe.first_contact."""
 
 from __future__ import annotations
 
@@ -18,7 +19,7 @@ def _is_char_device(path: str) -> bool:
 
 
 def open_source(spec: str, *, baud: int | str = "auto", speed: float | None = None,
-                rate_hz: float = 10.0, seed: int = 1) -> Source:
+                rate_hz: float = 10.0, seed: int = 1, wait: bool = False) -> Source:
     if not spec:
         raise SourceError("empty source: give a device, tcp://HOST:PORT, -, sim:NAME or a file")
     if spec == "-":
@@ -42,8 +43,8 @@ def open_source(spec: str, *, baud: int | str = "auto", speed: float | None = No
     if spec.startswith("/dev/") or _is_char_device(spec):
         from livefix.sources.serial_port import SerialSource
 
-        if not os.path.exists(spec):
-            raise SourceError(f"no such device: {spec} (use serial:{spec} to wait for it)")
+        if not wait and not os.path.exists(spec):
+            raise SourceError(f"no such device: {spec} (--wait waits for it to appear)")
         return SerialSource(spec, baud=baud)
     from livefix.sources.file import FileSource
 

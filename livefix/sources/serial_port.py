@@ -6,6 +6,8 @@ adapter raises plain OSError from `in_waiting`, which would otherwise kill the t
 
 from __future__ import annotations
 
+import errno
+import os
 import threading
 import time
 from collections.abc import Iterator
@@ -51,8 +53,27 @@ class SerialSource:
         try:
             serial.Serial(self.path, baudrate=self.locked_baud or 9600, timeout=0).close()
         except (OSError, ValueError) as exc:
+            code = getattr(exc, "errno", None)  # pyserial nests the OS text: keep just that
+            if isinstance(code, int) and code > 0:
+                return os.strerror(code)
+            if f"({errno.ENOTTY}," in str(exc):  # termios refused: a file or device, not a port
+                return f"not a serial port ({os.strerror(errno.ENOTTY)})"
             return str(exc)
         return None
+
+    def first_contact(self, timeout: float) -> None:
+        """Open the device once (livefix.sources.probe); SourceError with the OS reason if it fails."""
+        err = self.probe()
+        if err is not None:
+            raise SourceError(f"cannot open {self.path}: {err}")
+
+    def no_nmea_rule(self, limit_s: float) -> tuple[float, str]:
+        """(seconds of bytes without a sentence before giving up, hint) for probe.NoNmeaWatch.
+        Auto-baud gets one whole probe cycle on top: every rate is tried before it is judged."""
+        if self.baud == "auto":
+            return (limit_s + len(AUTO_BAUDS) * self.probe_s,
+                    f"no rate from {AUTO_BAUDS[0]} to {AUTO_BAUDS[-1]} baud gives NMEA: a binary protocol?")
+        return limit_s, f"wrong baud rate? (set at {self.baud}; try --baud auto)"
 
     def _open(self, baud: int):  # noqa: ANN202 - pyserial object
         import serial

@@ -20,10 +20,10 @@ class SimSource:
     finite: bool
 
     def __init__(self, scenario: Scenario | str, rate_hz: float = 10, speed: float | None = 1.0,
-                 seed: int = 1, duration: float | None = None) -> None:
+                 seed: int = 1, duration: float | None = None, dialect: str | None = None) -> None:
         try:
             sc = scenario if isinstance(scenario, Scenario) else Scenario.load(scenario)
-            self.rx = SimReceiver(sc, rate_hz=rate_hz, seed=seed)
+            self.rx = SimReceiver(sc, rate_hz=rate_hz, seed=seed, dialect=dialect)
         except ValueError as exc:
             raise SourceError(str(exc)) from exc
         if speed is not None and speed < 0:
@@ -32,7 +32,8 @@ class SimSource:
         self.speed = speed or None
         self.duration = duration
         self.finite = duration is not None
-        self.name = f"sim:{sc.name}"
+        names = self.rx.dialects.names
+        self.name = f"sim:{sc.name}" + (f"?dialect={','.join(names)}" if names else "")
 
     def _stamp(self, t: float) -> tuple[float, float]:
         if self.speed is None:
@@ -72,9 +73,18 @@ class SimSource:
 
 def open_sim(spec: str, speed: float | None = None, rate_hz: float = 10, seed: int = 1,
              duration: float | None = None) -> SimSource:
-    """`sim:NAME` after the colon: a scenario name or a .toml path. speed None means real time."""
+    """`sim:NAME[?dialect=A,B]` after the colon: a scenario name or a .toml path, optionally with
+    receiver dialects (livefix.sim.dialects). speed None means real time."""
+    spec, _, query = spec.partition("?")
+    dialect = None
+    for kv in filter(None, query.split("&")):
+        key, _, value = kv.partition("=")
+        if key != "dialect":
+            raise SourceError(f"sim:{spec}?{query}: unknown option {key!r} (use ?dialect=NAME,NAME)")
+        dialect = value
     if not spec:
         from livefix.sim.scenario import list_scenarios
 
         raise SourceError(f"sim: needs a scenario, e.g. sim:rooftop (built-in: {', '.join(list_scenarios())})")
-    return SimSource(spec, rate_hz=rate_hz, speed=1.0 if speed is None else speed, seed=seed, duration=duration)
+    return SimSource(spec, rate_hz=rate_hz, speed=1.0 if speed is None else speed, seed=seed, duration=duration,
+                     dialect=dialect)

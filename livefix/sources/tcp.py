@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import errno
 import socket
 import threading
 import time
@@ -39,8 +40,42 @@ class TcpSource:
         self.name = f"tcp://{self.host}:{self.port}"
         self.connect_timeout, self.stall_s, self.read_timeout = connect_timeout, stall_s, read_timeout
         self._sock: socket.socket | None = None
+        self._ready: socket.socket | None = None  # connected by first_contact, used by items()
         self._lock = threading.Lock()
         self._closed = threading.Event()
+
+    # -- start-up (livefix.sources.probe) -------------------------------------------------------
+    def first_contact(self, timeout: float) -> None:
+        """Connect once within `timeout` (resolution included) or raise SourceError with the reason.
+        The connected socket is kept for items(), so a one-client server is not dialled twice."""
+        deadline = time.monotonic() + timeout
+        addrs = _resolve(self.host, self.port, timeout)
+        last: OSError | None = None
+        for family, kind, proto, _, addr in addrs:
+            left = deadline - time.monotonic()
+            if left <= 0:
+                break
+            sock = socket.socket(family, kind, proto)
+            sock.settimeout(min(left, self.connect_timeout))
+            try:
+                sock.connect(addr)
+            except OSError as exc:
+                sock.close()
+                last = exc
+                continue
+            self._ready = sock
+            return
+        raise SourceError(f"cannot connect to {self.name}: {_why(last, timeout)}")
+
+    def no_nmea_rule(self, limit_s: float) -> tuple[float, str]:
+        """(seconds of bytes without a sentence before giving up, hint) for probe.NoNmeaWatch."""
+        return limit_s, "wrong port, or a binary protocol?"
+
+    def _connect(self) -> socket.socket:
+        sock, self._ready = self._ready, None
+        if sock is not None:
+            return sock
+        return socket.create_connection((self.host, self.port), timeout=self.connect_timeout)
 
     def items(self, stop: threading.Event) -> Iterator[Item]:
         backoff = Backoff()
@@ -51,7 +86,7 @@ class TcpSource:
         while not halt():
             yield event(Link.CONNECTING, self.name)
             try:
-                sock = socket.create_connection((self.host, self.port), timeout=self.connect_timeout)
+                sock = self._connect()
             except OSError as exc:
                 yield event(Link.LOST, f"cannot connect to {self.host}:{self.port}: {exc}")
             else:
@@ -110,3 +145,38 @@ class TcpSource:
 
     def close(self) -> None:
         self._closed.set()
+        sock, self._ready = self._ready, None
+        if sock is not None:
+            sock.close()
+
+
+def _resolve(host: str, port: int, timeout: float) -> list:  # noqa: ANN401 - getaddrinfo tuples
+    """getaddrinfo with a deadline: a resolver that hangs must not hold the start-up past it."""
+    box: list = []
+
+    def run() -> None:
+        try:
+            box.append(socket.getaddrinfo(host, port, type=socket.SOCK_STREAM))
+        except OSError as exc:
+            box.append(exc)
+
+    t = threading.Thread(target=run, name="livefix-resolve", daemon=True)
+    t.start()
+    t.join(timeout)
+    if not box:
+        raise SourceError(f"cannot resolve {host}: no answer from the name service in {timeout:.0f} s")
+    if isinstance(box[0], OSError):
+        reason = box[0].strerror or str(box[0])
+        raise SourceError(f"cannot resolve {host}: {reason} (unknown host name?)")
+    return box[0]
+
+
+def _why(exc: OSError | None, timeout: float) -> str:
+    """One short reason for a failed connect, in words rather than errno numbers."""
+    if exc is None or isinstance(exc, TimeoutError):
+        return f"no answer in {timeout:.0f} s (host down, or a firewall drops the packets?)"
+    if isinstance(exc, ConnectionRefusedError):
+        return "connection refused (nothing listens on that port?)"
+    if exc.errno in (errno.ENETUNREACH, errno.EHOSTUNREACH):
+        return f"{exc.strerror} (no route to the host)"
+    return exc.strerror or str(exc)

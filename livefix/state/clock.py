@@ -1,8 +1,11 @@
-"""Receiver time of fix -> POSIX seconds, with sparse dates, midnight rollover and jump detection.
+"""Receiver time of fix -> POSIX seconds, with sparse dates, midnight rollover and jump checks.
 
-Why: most sentences carry only a time of day; the date comes from RMC or ZDA, sometimes not at all.
-The clock carries the last date forward, rolls it at midnight, and reports time running backwards
-or leaping ahead as events instead of hiding them (the epoch is still published).
+Why: most sentences carry only a time of day; the date comes from RMC or ZDA, sometimes not at all,
+and before a receiver knows the time its date is a default one. The clock carries the last valid
+date forward and rolls it at midnight; a default date is reported once ("receiver_date_invalid")
+and its epochs get no UTC (their time is not the real one). A jump (livefix.state.dates) moves the
+clock only when the host clock vouches for it (a hole in the data) or the following epochs run on
+from it; until then the epoch gets no UTC, and a jump never confirmed is a "time_fault" event.
 """
 
 from __future__ import annotations
@@ -11,8 +14,13 @@ import datetime as _dt
 from collections import deque
 from statistics import median
 
+from livefix.state.dates import CONFIRM_EPOCHS, agrees, date_problem, jump_limit
+from livefix.timefmt import date_known, iso
+
 _DAY = 86400.0
 _UTC = _dt.UTC
+
+Note = tuple[str, str, dict]
 
 
 def tod_seconds(t: object) -> float | None:
@@ -29,14 +37,17 @@ def _day_start(d: _dt.date) -> float:
 class UtcClock:
     """Resolves each epoch's time of day to POSIX seconds; returns (kind, text, data) notes."""
 
-    JUMP_FACTOR = 10.0  # forward step over 10 nominal intervals ...
-    JUMP_MIN_S = 2.0  # ... and over 2 s is a jump (common practice)
-
     def __init__(self) -> None:
         self.date: _dt.date | None = None  # date the last epoch fell on
-        self._given: _dt.date | None = None  # last date the receiver stated
+        self.date_known = True  # the last epoch's date is real (receiver or host), not a stand-in
+        self.time_faults = 0
+        self._given: _dt.date | None = None  # last valid date the receiver stated
+        self._bad: _dt.date | None = None  # last default date the receiver stated
+        self._date_bad = False  # the receiver's current date is a default one
         self._last_tod: float | None = None
-        self.last_utc: float | None = None
+        self.last_utc: float | None = None  # last accepted time
+        self._last_mono: float | None = None
+        self._jump: list[float] | None = None  # [utc, chain utc, epochs run on from it, step]
         self._steps: deque[float] = deque(maxlen=15)
 
     @property
@@ -44,31 +55,98 @@ class UtcClock:
         """Typical epoch interval, median of recent forward steps (1 s until known)."""
         return median(self._steps) if self._steps else 1.0
 
-    def resolve(self, tod: float, given: _dt.date | None, wall: float
-                ) -> tuple[float, list[tuple[str, str, dict]]]:
-        notes: list[tuple[str, str, dict]] = []
+    def resolve(self, tod: float, given: _dt.date | None, wall: float, mono: float | None = None
+                ) -> tuple[float | None, list[Note]]:
+        notes: list[Note] = []
+        host = _dt.datetime.fromtimestamp(wall, tz=_UTC).date() if date_known(wall) else None
+        keep = (self.date, self._last_tod, self._given)
+        change: Note | None = None
         if given is not None:
-            if self._given is not None and given != self._given:
-                notes.append(("date_change", f"receiver date {self._given} -> {given}",
-                              {"from": str(self._given), "to": str(given)}))
-            self._given = self.date = given
+            # a rolled-over date shows against the host's date or the receiver's own last valid one
+            why = (date_problem(given, host, self._bad) if host is not None else None) or \
+                date_problem(given, self._given, self._bad)
+            if why is not None:
+                if not self._date_bad:
+                    notes.append(("receiver_date_invalid", f"receiver date {given} not valid: {why}",
+                                  {"date": str(given), "reason": why}))
+                self._date_bad, self._bad = True, given
+            else:
+                if self._given is not None and given != self._given and not self._date_bad:
+                    change = ("date_change", f"receiver date {self._given} -> {given}",
+                              {"from": str(self._given), "to": str(given)})
+                self._date_bad = False
+                self._given = self.date = given
         elif self.date is not None and self._last_tod is not None:
             if tod < self._last_tod - _DAY / 2:  # 23:59:59 -> 00:00:00 without a date: next day
                 self.date += _dt.timedelta(days=1)
             elif tod > self._last_tod + _DAY / 2:  # 00:00:01 -> 23:59:59: back across midnight
                 self.date -= _dt.timedelta(days=1)
-        else:  # no date ever: the host date that puts the fix nearest the host clock
+        elif not self._date_bad:  # no date ever: the host date that puts the fix nearest the host clock
             wd = _dt.datetime.fromtimestamp(wall, tz=_UTC).date()
             cands = (wd - _dt.timedelta(days=1), wd, wd + _dt.timedelta(days=1))
             self.date = min(cands, key=lambda d: abs(_day_start(d) + tod - wall))
+        self._last_tod = tod
+        if self._date_bad or self.date is None:  # the receiver does not know the time yet
+            self.last_utc = self._last_mono = None  # the first valid time starts afresh
+            self._drop_jump(notes)
+            self.date_known = host is not None
+            return None, notes
+        self.date_known = self._given is not None or host is not None
         utc = _day_start(self.date) + tod
-        if self.last_utc is not None:
-            dt = utc - self.last_utc
-            if dt < 0:
-                notes.append(("time_rollback", f"receiver time went back {-dt:.3f} s", {"step_s": dt}))
-            elif dt > self.JUMP_MIN_S and dt > self.JUMP_FACTOR * self.nominal_s:  # median only then
-                notes.append(("time_jump", f"receiver time jumped ahead {dt:.3f} s", {"step_s": dt}))
-            elif dt > 0:
-                self._steps.append(dt)
-        self.last_utc, self._last_tod = utc, tod
+        if not self._gate(utc, mono, notes):
+            self.date, self._last_tod, self._given = keep  # a held or faulty time moves no date
+            return None, notes
+        if change is not None:
+            notes.append(change)
         return utc, notes
+
+    def finish(self) -> list[Note]:
+        """End of stream: a jump still waiting for confirmation is a time fault."""
+        notes: list[Note] = []
+        self._drop_jump(notes)
+        return notes
+
+    def _gate(self, utc: float, mono: float | None, notes: list[Note]) -> bool:
+        """Accept utc (True) or hold it as an unconfirmed jump (False)."""
+        last = self.last_utc
+        if last is None:
+            return self._accept(utc, mono)
+        dt, limit = utc - last, jump_limit(self.nominal_s)
+        host = None if mono is None or self._last_mono is None else mono - self._last_mono
+        j = self._jump
+        if j is not None and 0 <= dt <= limit:  # the old clock runs on: the held jump was a fault
+            self._drop_jump(notes)
+        elif j is not None and 0 <= utc - j[1] <= limit:  # runs on from the held jump
+            j[2] += utc > j[1]
+            j[1] = utc
+            if j[2] >= CONFIRM_EPOCHS:
+                self._jump = None
+                step = j[3]
+                if step < 0:
+                    notes.append(("time_rollback", f"receiver time went back {-step:.3f} s", {"step_s": step}))
+                else:
+                    notes.append(("time_jump", f"receiver time jumped ahead {step:.3f} s", {"step_s": step}))
+                return self._accept(utc, mono)
+            return False
+        if -limit <= dt <= limit or (host is not None and agrees(dt, host)):
+            self._drop_jump(notes)
+            if dt < 0:  # a small step back: the receiver re-aligned its time of fix
+                notes.append(("time_rollback", f"receiver time went back {-dt:.3f} s", {"step_s": dt}))
+            elif 0 < dt <= limit:
+                self._steps.append(dt)
+            return self._accept(utc, mono)
+        self._drop_jump(notes)  # neither clock: a held jump was a fault, this one is held now
+        self._jump = [utc, utc, 0, dt]
+        return False
+
+    def _accept(self, utc: float, mono: float | None) -> bool:
+        self.last_utc, self._last_mono = utc, mono
+        return True
+
+    def _drop_jump(self, notes: list[Note]) -> None:
+        j, self._jump = self._jump, None
+        if j is None:
+            return
+        self.time_faults += 1
+        notes.append(("time_fault", f"receiver time {iso(j[0])} ({j[3]:+.3f} s) not confirmed by the "
+                      f"following epochs: ignored", {"step_s": j[3], "receiver_time": iso(j[0])}))

@@ -27,7 +27,7 @@ class SatObs:
     signal: str  # NMEA 4.10+ GSV signal id as given ("1", "7", ...); "" when the receiver gives none
     elev: int | None  # degrees above the horizon
     azim: int | None  # degrees true
-    cn0: int | None  # dB-Hz; None = in view but not tracked
+    cn0: float | None  # dB-Hz, whole as NMEA defines it (int) or with decimals where given; None = untracked
     used: bool  # listed in GSA as used in the solution
     # host time this satellite's set was last listed: set in StateModel.sky() (snapshots); 0.0 in
     # Epoch.sats, which stays one tuple object while only these times change
@@ -75,6 +75,11 @@ class Epoch:
     sats: tuple[SatObs, ...] = ()  # satellites in view as of this epoch (latest complete GSV sets)
     used_prns: tuple[tuple[str, int], ...] = ()  # (system, prn) listed used in GSA this epoch
     sentences: tuple[str, ...] = ()  # msg ids seen in this epoch, in order
+    # satellite numbers listed this epoch (GSA, or GSV parts) that fit no NMEA block: 'GPGSA 250'
+    unknown_ids: tuple[str, ...] = ()
+    # False while the date of this epoch is not known (no valid receiver date, no host date): utc
+    # and wall then count days from 1970-01-01 and are shown as a time of day (livefix.timefmt)
+    date_known: bool = True
 
     @property
     def fix(self) -> str:
@@ -91,6 +96,8 @@ EVENT_KINDS = (
     "time_jump", "time_rollback", "date_change", "receiver_restart",
     "fix_lost", "fix_regained", "fix_change", "jump", "interference", "stall", "reconnect",
     "checksum_burst", "gsv_incomplete", "marker", "recording", "note",
+    "time_fault",  # a receiver time jump not confirmed by the following epochs (data: step_s, time)
+    "receiver_date_invalid",  # a default or rolled-over receiver date (data: date, reason)
 )
 
 

@@ -9,17 +9,22 @@ the GSV parts, the sky and the event queue all have caps, so memory does not gro
 from __future__ import annotations
 
 import datetime as _dt
-from types import MappingProxyType
 from typing import Any
 
 from livefix.decode import Decoded, Rejected
 from livefix.sources.base import Link, LinkEvent, Marker
 from livefix.state.clock import UtcClock
-from livefix.state.epoch import SYSTEM_ID, Epoch, Event, SatObs
-from livefix.state.sky import GsvAssembler, Sky, talker_system, user_prn
+from livefix.state.epoch import Epoch, Event, SatObs
+from livefix.state.sky import GsvAssembler, Sky
+from livefix.state.used import UsedTracker, solution_gsa
 
-# Sentence types that carry the UTC time of fix (an epoch key).
-TIMED = frozenset({"GGA", "RMC", "GNS", "GST", "ZDA", "GLL"})
+# Sentence types whose time field is the UTC time of a position fix: only these open and close
+# epochs (NMEA 0183: GGA, RMC, GNS and GLL report a fix "as of" that time). ZDA is a clock/date
+# sentence that some receivers stamp tens of ms after the fix, and GST belongs to a fix only when its
+# time matches one, so both join the epoch in progress like the untimed GSA, GSV, VTG and TXT.
+TIMED = frozenset({"GGA", "RMC", "GNS", "GLL"})
+# Sentences that carry a time but do not define an epoch: their time is read for what it is.
+CLOCK_ONLY = frozenset({"ZDA", "GST"})
 # Position sources in order of preference.
 POSITION_FROM = ("GGA", "GNS", "RMC", "GLL")
 # RMC/GNS/GLL mode letter -> GGA quality (NMEA 0183: A, D, E, N verified; F, R, M, S, P from memory,
@@ -57,7 +62,7 @@ def _first(*vals: Any) -> float | None:
 class _Open:
     """The epoch being assembled."""
 
-    __slots__ = ("mono", "wall", "tod", "timed_keys", "by_type", "used", "date", "sentences")
+    __slots__ = ("mono", "wall", "tod", "timed_keys", "by_type", "used", "date", "date_tod", "sentences")
 
     def __init__(self, mono: float, wall: float, tod: float | None) -> None:
         self.mono, self.wall, self.tod = mono, wall, tod
@@ -65,6 +70,7 @@ class _Open:
         self.by_type: dict[str, dict[str, Any]] = {}
         self.used: set[tuple[str, int]] = set()
         self.date: _dt.date | None = None
+        self.date_tod: float | None = None  # time of day the date was stated for (ZDA), None = the fix's
         self.sentences: list[str] = []
 
 
@@ -73,6 +79,7 @@ class StateModel:
         self._open: _Open | None = None
         self._clock = UtcClock()
         self._gsv = GsvAssembler()
+        self._gsa = UsedTracker()  # GSA used lists of the open epoch
         self._sky = Sky(sky_timeout_s)
         self._used: frozenset[tuple[str, int]] = frozenset()
         self._used_sorted: tuple[tuple[str, int], ...] = ()
@@ -91,6 +98,7 @@ class StateModel:
         self.events_dropped = 0
         self._gsv_unreported = 0
         self._gsv_last_event: float | None = None
+        self._gst_ahead: tuple[float, Any] | None = None  # a GST for a time not yet open
         self._tod_of: object = None  # the last time-of-fix object seen, and its seconds of day
         self._tod: float | None = None
 
@@ -157,13 +165,18 @@ class StateModel:
                 elif tod is not None and tod == self._closed_tod and op.tod not in (None, tod):
                     self.late += 1  # belongs to the epoch already published: counted, not re-opened
                     return out
-                elif key in op.timed_keys or (tod is not None and tod != op.tod):
+                elif tod is not None and tod == op.tod:
+                    pass  # the same time of fix from another talker (GP/GL/GN) or repeated: one epoch
+                elif key in op.timed_keys or tod != op.tod:
                     out.append(self._close())
             elif op.tod is None and mono - op.mono > UNTIMED_GAP_S:
                 out.append(self._close())
         op = self._open
         if op is None:
             op = self._open = _Open(mono, wall, tod)
+        if self._gst_ahead is not None and self._gst_ahead[0] == op.tod:  # its GST came first
+            op.by_type.setdefault("GST", self._gst_ahead[1])
+            self._gst_ahead = None
         if len(op.sentences) < MAX_SENTENCES:  # add the sentence to the open epoch
             op.sentences.append(mid)
         if timed:
@@ -178,6 +191,8 @@ class StateModel:
     def finish(self) -> list[Epoch]:
         """End of stream: close the open epoch and report pending GSV breakage."""
         out = [self._close()] if self._open is not None else []
+        for kind, text, data in self._clock.finish():  # a jump never confirmed: a time fault
+            self._emit(self._mono, self._wall, kind, text, data=data)
         self._gsv_event(self._mono, self._wall, force=True)
         return out
 
@@ -195,41 +210,60 @@ class StateModel:
         return self._gsv.broken
 
     # -- assembly ------------------------------------------------------------------------
+    def _on_fix(self, op: _Open, msg: Decoded, mono: float) -> None:
+        """A position sentence: the first one of its type that has a position wins. Receivers send
+        one per talker for the same time (GN with the position, GP/GL with empty fields)."""
+        f = msg.fields
+        bt = op.by_type
+        had = bt.get(msg.msg_id)
+        if had is None or (had.get("lat").__class__ is not float and f.get("lat").__class__ is float):
+            bt[msg.msg_id] = f
+
     def _on_dated(self, op: _Open, msg: Decoded, mono: float) -> None:
         f = msg.fields
-        op.by_type.setdefault(msg.msg_id, f)
+        if msg.msg_id == "RMC":
+            self._on_fix(op, msg, mono)
+        else:
+            op.by_type.setdefault(msg.msg_id, f)
         d = f.get("date")
         if isinstance(d, _dt.date):
-            op.date = d
+            op.date, op.date_tod = d, None  # RMC: the date of its own time of fix
         elif all(type(f.get(k)) is int for k in ("day", "month", "year")):
             try:
-                op.date = _dt.date(f["year"], f["month"], f["day"])
+                d = _dt.date(f["year"], f["month"], f["day"])
             except (ValueError, OverflowError):
-                pass  # impossible date: the epoch keeps the carried-forward date
+                return  # impossible date: the epoch keeps the carried-forward date
+            zt = _tod_of(f.get("time"))
+            if zt is not None and op.date is None:  # ZDA: the date of the ZDA's own time
+                op.date, op.date_tod = d, zt
+
+    def _on_gst(self, op: _Open, msg: Decoded, mono: float) -> None:
+        """GST describes the fix whose time it carries: kept for that epoch only (a receiver may
+        send it before or after the fix sentences of its burst)."""
+        f = msg.fields
+        t = _tod_of(f.get("time"))
+        if t is None or op.tod is None or t == op.tod:
+            op.by_type.setdefault("GST", f)
+        elif t == self._closed_tod:
+            self.late += 1  # it describes the epoch already published: counted, not attached
+        else:
+            self._gst_ahead = (t, f)  # for the epoch of that time, if it comes next
 
     def _on_gsa(self, op: _Open, msg: Decoded, mono: float) -> None:
+        """One GSA: its used list joins the epoch's union (livefix.state.used places each list)."""
         f = msg.fields
-        op.by_type.setdefault("GSA", f)
-        known = _GSA_BY_VALUE.get(id(f))
-        if known is not None and known[0] is f:  # the decoder's shared value of a repeated line
-            op.used.update(known[1])
-            return
-        sid = f.get("systemId", "")
-        key = (sid, msg.talker, tuple(map(f.get, _GSA_SVIDS)))  # everything the result depends on
-        hit = _GSA_CACHE.get(key)
-        if hit is None:
-            hit = _gsa_used(sid, msg.talker, key[2])
-            if len(_GSA_CACHE) >= 4096:
-                _GSA_CACHE.clear()
-            _GSA_CACHE[key] = hit
-        if f.__class__ is MappingProxyType:  # read-only: same line, same talker, same result
-            if len(_GSA_BY_VALUE) >= 1024:
-                _GSA_BY_VALUE.clear()
-            _GSA_BY_VALUE[id(f)] = (f, hit)  # holding f keeps its id unique
-        op.used.update(hit)
+        bt = op.by_type
+        had = bt.get("GSA")
+        if had is not f:
+            bt["GSA"] = solution_gsa(had, f)  # whose DOPs and fix mode describe the solution
+        placed = self._gsa.add_gsa(msg.talker, f)
+        if placed:
+            op.used.update(placed)
 
     def _on_gsv(self, op: _Open, msg: Decoded, mono: float) -> None:
         group, sats, broken = self._gsv.add(msg.talker, msg.fields)
+        if self._gsv.last_unknown:
+            self._gsa.note_unknown(msg.talker + "GSV", self._gsv.last_unknown)
         if sats is not None:
             self._sky.replace(group, sats, mono)
         if broken:
@@ -243,7 +277,7 @@ class StateModel:
         if force or last is None or mono - last >= GSV_EVENT_EVERY_S:
             n, self._gsv_unreported = self._gsv_unreported, 0
             self._gsv_last_event = mono
-            self._emit(mono, wall, "gsv_incomplete", f"{n} incomplete GSV set(s) discarded",
+            self._emit(mono, wall, "gsv_incomplete", f"{n} incomplete GSV set(s): kept the parts that arrived whole",
                        data={"count": n, "total": self._gsv.broken})
 
     # -- closing -------------------------------------------------------------------------
@@ -271,11 +305,17 @@ class StateModel:
         nav = gsa.get("navMode")
         utc = None
         if op.tod is not None:
-            utc, notes = self._clock.resolve(op.tod, op.date, op.wall)
+            date = op.date
+            if date is not None and op.date_tod is not None:  # a ZDA date across midnight from the fix
+                if op.tod - op.date_tod > _HALF_DAY:
+                    date -= _dt.timedelta(days=1)
+                elif op.date_tod - op.tod > _HALF_DAY:
+                    date += _dt.timedelta(days=1)
+            utc, notes = self._clock.resolve(op.tod, date, op.wall, op.mono)
             for kind, text, data in notes:
                 self._emit(op.mono, op.wall, kind, text, utc, data)
         self._sky.expire(self._mono)
-        used = frozenset(op.used)
+        used = self._gsa.close(op.used, self._sky.in_view, op.mono)
         if used != self._used:  # usually the same set epoch after epoch: keep its sorted tuple
             self._used, self._used_sorted = used, tuple(sorted(used))
         ep = Epoch(
@@ -290,7 +330,8 @@ class StateModel:
             speed_mps=speed, course=_first((rmc or {}).get("cog"), vtg.get("cogt")),
             diff_age=_first((gga or {}).get("diffAge"), (gns or {}).get("diffAge")),
             sats=self._sky.obs(self._used), used_prns=self._used_sorted,
-            sentences=tuple(op.sentences))
+            sentences=tuple(op.sentences), unknown_ids=self._gsa.unknown,
+            date_known=self._clock.date_known)
         self.last_epoch, self._closed_tod = ep, op.tod
         self.epochs += 1
         return ep
@@ -315,26 +356,14 @@ class StateModel:
         self._events.append(Event(mono, wall, kind, text, utc, data or {}))
 
 
-_GSA_SVIDS = tuple(f"svid_{i:02d}" for i in range(1, 13))
-# GSA lists repeat for long stretches: (systemId, talker, svids) -> used (system, prn) pairs.
-_GSA_CACHE: dict[tuple, tuple[tuple[str, int], ...]] = {}
-_GSA_BY_VALUE: dict[int, tuple[Any, tuple[tuple[str, int], ...]]] = {}  # id(read-only fields) -> used
+_HALF_DAY = 43200.0
 
 
-def _gsa_used(sid: Any, talker: str, svids: tuple) -> tuple[tuple[str, int], ...]:
-    try:
-        system = SYSTEM_ID.get(int(sid)) if sid != "" else None
-    except (TypeError, ValueError):
-        system = None
-    if system is None:
-        system = talker_system(talker)
-    out = []
-    for n in svids:
-        if type(n) is int:
-            m = user_prn(system, n)
-            if m is not None:
-                out.append(m)
-    return tuple(out)
+def _tod_of(t: Any) -> float | None:
+    """datetime.time -> seconds of day; an empty field -> None."""
+    if isinstance(t, _dt.time):
+        return t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
+    return None
 
 
 def _int_or_none(v: Any) -> int | None:
@@ -357,5 +386,6 @@ def _quality(gga: dict | None, src: dict) -> int:
 
 _HANDLERS = {
     "GSA": StateModel._on_gsa, "GSV": StateModel._on_gsv, "RMC": StateModel._on_dated,
-    "ZDA": StateModel._on_dated,
+    "ZDA": StateModel._on_dated, "GST": StateModel._on_gst, "GGA": StateModel._on_fix,
+    "GNS": StateModel._on_fix, "GLL": StateModel._on_fix,
 }

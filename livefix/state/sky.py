@@ -1,187 +1,22 @@
-"""Satellites: NMEA PRN numbers to user numbering, multi-part GSV assembly, and the sky store.
+"""The sky store: the latest complete GSV set per group, merged into one sorted satellite view.
 
-Why assembly per (talker, signal): since NMEA 4.10 a receiver sends one GSV set per constellation
-and per signal; parts of different sets interleave. A set is only trusted once every part arrived
-in order, so a lost line never mixes two epochs' satellites.
+Set assembly lives in livefix.state.gsv and satellite numbering in livefix.state.prn; both are
+re-exported here for callers that import them from the sky.
 """
 
 from __future__ import annotations
 
-from collections.abc import Mapping
-from types import MappingProxyType
-
 from livefix.state.epoch import TALKER_SYSTEM, SatObs
+from livefix.state.gsv import GsvAssembler, RawSat
+from livefix.state.prn import user_prn
 
-# NMEA numbering in a combined (GN) or GPS-talker listing -> (system, offset to user number).
-# 1-32 GPS, 33-64 SBAS (PRN = n + 87), 65-96 GLONASS slot n - 64 (NMEA 0183, common practice);
-# 120-158 SBAS native, 193-202 QZSS, 301-336 Galileo, 401-437 BeiDou extended ranges (from memory).
-_GN_RANGES: tuple[tuple[int, int, str, int], ...] = (
-    (1, 32, "G", 0), (33, 64, "S", 87), (65, 96, "R", -64), (120, 158, "S", 0),
-    (193, 202, "J", -192), (301, 336, "E", -300), (401, 437, "C", -400),
-)
-# Constellation-specific talkers: native numbers, plus the NMEA range some receivers still use.
-_SYSTEM_RANGE: dict[str, tuple[int, int, int]] = {
-    "R": (65, 96, -64), "E": (301, 336, -300), "C": (401, 437, -400), "J": (193, 202, -192),
-}
+__all__ = ["GsvAssembler", "RawSat", "Sky", "SYSTEM_ORDER", "sats_token", "talker_system", "user_prn"]
+
 SYSTEM_ORDER = {s: i for i, s in enumerate("GRECJIS")}
-
-
-def user_prn(system: str | None, n: int) -> tuple[str, int] | None:
-    """Map a listed PRN to (RINEX letter, user number); None when it fits no known range."""
-    if system is None or system == "G":  # GN / GP listings use the combined NMEA ranges
-        for lo, hi, letter, off in _GN_RANGES:
-            if lo <= n <= hi:
-                return letter, n + off
-        return None
-    r = _SYSTEM_RANGE.get(system)
-    if r is not None and r[0] <= n <= r[1]:
-        return system, n + r[2]
-    return system, n
-
-
-_PRN_CACHE: dict[tuple[str | None, int], tuple[str, int] | None] = {}
-
-
-def _user_prn_cached(system: str | None, n: int) -> tuple[str, int] | None:
-    """user_prn through a bounded memo: GSV and GSA list the same few dozen numbers all day."""
-    k = (system, n)
-    try:
-        return _PRN_CACHE[k]
-    except KeyError:
-        pass
-    if len(_PRN_CACHE) >= 4096:
-        _PRN_CACHE.clear()
-    m = _PRN_CACHE[k] = user_prn(system, n)
-    return m
-
-
-# GSV field names of the four satellite blocks of one part, flat.
-_BLOCK_FLAT = tuple(f"{a}_{i:02d}" for i in range(1, 5) for a in ("svid", "elv", "az", "cno"))
 
 
 def talker_system(talker: str) -> str | None:
     return TALKER_SYSTEM.get(talker)
-
-
-def _int(v: object) -> int | None:
-    return v if type(v) is int else None
-
-
-RawSat = tuple[str, int, int | None, int | None, int | None]  # system, prn, elev, azim, cn0
-
-
-class _Partial:
-    """A set being received. `parts` holds each part's satellites as the memoised tuple, so a set
-    that repeats the last one is recognised by comparing a few references, not every satellite."""
-
-    __slots__ = ("num_msg", "next_msg", "dead", "parts")
-
-    def __init__(self, num_msg: int, next_msg: int, dead: bool = False) -> None:
-        self.num_msg, self.next_msg = num_msg, next_msg
-        self.dead = dead  # a broken set: its remaining parts are skipped, not counted again
-        self.parts: list[tuple[RawSat, ...]] = []
-
-
-class GsvAssembler:
-    """Collects GSV parts per (talker, signal); returns a set only when it is complete."""
-
-    MAX_GROUPS = 64  # bounded even against a stream of random talkers
-
-    def __init__(self) -> None:
-        self._pending: dict[tuple[str, str], _Partial] = {}
-        # last completed set per group: (its parts, its satellites)
-        self._last: dict[tuple[str, str], tuple[list[tuple[RawSat, ...]], list[RawSat]]] = {}
-        self.broken = 0  # sets discarded (missing part, restart, numMsg change, stray parts)
-        self.unmapped = 0  # listed PRNs outside every known range
-
-    def add(self, talker: str, f: Mapping) -> tuple[tuple[str, str], list[RawSat] | None, int]:
-        """-> (group key, satellites of a completed set or None, number of sets broken now)."""
-        known = _PART_BY_VALUE.get(id(f))
-        if known is not None and known[0] is f:  # the decoder's shared value of a repeated line
-            _, key, num, part, hit = known
-        else:
-            sid = f.get("signalID", "")
-            key = (talker, sid if sid.__class__ is str else str(sid))
-            num, part, hit = f.get("numMsg"), f.get("msgNum"), None
-        p = self._pending.pop(key, None)
-        live = p is not None and not p.dead
-        if num.__class__ is not int or part.__class__ is not int or num < 1 or not 1 <= part <= num:
-            self.broken += int(live) + 1  # unreadable part numbers: the part and its set are lost
-            return key, None, int(live) + 1
-        if part == 1:
-            n, p = int(live), _Partial(num, 1)  # a restart breaks an unfinished set
-        elif p is not None and p.num_msg == num and p.next_msg == part:
-            n = 0
-        elif live and p is not None and p.num_msg == num and part > p.next_msg:
-            n, p.dead = 1, True  # same set, a part went missing
-        else:
-            n, p = int(live) + 1, _Partial(num, part, dead=True)  # stray part of an unseen set
-        self.broken += n
-        if not p.dead:
-            if hit is None:
-                hit = self._part(talker, f, key, num, part)
-            p.parts.append(hit[0])
-            self.unmapped += hit[1]
-        if part == num:
-            if p.dead:
-                return key, None, n
-            last = self._last.get(key)
-            if last is not None and last[0] == p.parts:  # the same parts: the same set as last time
-                return key, last[1], n
-            sats = [s for part_sats in p.parts for s in part_sats]
-            if last is not None and last[1] == sats:  # same satellites, split differently
-                sats = last[1]
-            elif len(self._last) >= self.MAX_GROUPS:
-                self._last.clear()
-            self._last[key] = (p.parts, sats)  # the same list as long as the set repeats (Sky)
-            return key, sats, n
-        p.next_msg = part + 1
-        if len(self._pending) >= self.MAX_GROUPS:
-            self.broken += int(not self._pending.pop(next(iter(self._pending))).dead)
-        self._pending[key] = p
-        return key, None, n
-
-    @staticmethod
-    def _part(talker: str, f: Mapping, key: tuple[str, str], num: int, part: int
-              ) -> tuple[tuple[RawSat, ...], int]:
-        """Satellites of one part (+ unmapped count), memoised by value."""
-        system = TALKER_SYSTEM.get(talker)
-        vkey = (system, tuple(map(f.get, _BLOCK_FLAT)))  # everything the result depends on
-        hit = _PART_CACHE.get(vkey)
-        if hit is None:
-            hit = _part_sats(system, vkey[1])
-            if len(_PART_CACHE) >= 4096:
-                _PART_CACHE.clear()
-            _PART_CACHE[vkey] = hit
-        if f.__class__ is MappingProxyType:  # read-only, so its results never change
-            if len(_PART_BY_VALUE) >= 4096:
-                _PART_BY_VALUE.clear()
-            _PART_BY_VALUE[id(f)] = (f, key, num, part, hit)  # holding f keeps its id unique
-        return hit
-
-
-def _part_sats(system: str | None, vals: tuple) -> tuple[tuple[RawSat, ...], int]:
-    """Satellites of one GSV part from its 16 block values (svid, elv, az, cno x 4); + unmapped."""
-    out: list[RawSat] = []
-    unmapped = 0
-    for i in range(0, 16, 4):
-        svid, e, a, c = vals[i : i + 4]
-        if svid.__class__ is not int:
-            continue
-        m = _user_prn_cached(system, svid)
-        if m is None:
-            unmapped += 1
-            continue
-        out.append((m[0], m[1], e if e.__class__ is int else None, a if a.__class__ is int else None,
-                    c if c.__class__ is int else None))
-    return tuple(out), unmapped
-
-
-# Part contents repeat epoch after epoch; (system, block values) -> (satellites, unmapped).
-_PART_CACHE: dict[tuple, tuple[tuple[RawSat, ...], int]] = {}
-# id of a read-only field mapping (a repeated line, so the same talker too) -> (mapping, group key,
-# numMsg, msgNum, its satellites and unmapped count).
-_PART_BY_VALUE: dict[int, tuple] = {}
 
 
 class Sky:
@@ -203,6 +38,7 @@ class Sky:
         self._layout: tuple[tuple, frozenset, list[tuple[tuple, int]], list] | None = None
         self._lean: tuple[SatObs, ...] = ()  # obs() of the current layout
         self._seen: tuple[tuple, tuple, tuple[SatObs, ...]] | None = None  # layout, monos, seen()
+        self._view: tuple[tuple, frozenset[tuple[str, int]], list] | None = None  # in_view() cache
 
     def replace(self, group: tuple[str, str], sats: list[RawSat], mono: float) -> None:
         groups = self._groups
@@ -220,6 +56,17 @@ class Sky:
 
     def _signature(self) -> tuple:
         return tuple([(g, id(sats)) for g, sats in self._groups.items()])
+
+    def in_view(self) -> frozenset[tuple[str, int]]:
+        """(system, prn) of every satellite listed now; the same object while its content holds,
+        so callers may memoise on it (GSA lists without system ID are placed against it)."""
+        sig = self._signature()
+        v = self._view
+        if v is None or v[0] != sig:
+            now = frozenset([(s[0], s[1]) for sats in self._groups.values() for s in sats])
+            keep = v is not None and v[1] == now
+            v = self._view = (sig, v[1] if keep and v is not None else now, list(self._groups.values()))
+        return v[1]
 
     def obs(self, used: frozenset[tuple[str, int]]) -> tuple[SatObs, ...]:
         """All satellites, sorted by system, number and signal; the same tuple object while nothing

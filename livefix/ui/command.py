@@ -30,6 +30,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    "locale is not UTF-8)")
     p.add_argument("--profile", metavar="NAME|FILE", help="show the live verdict against this profile")
     p.add_argument("--baud", default="auto", help="serial baud rate or auto (default)")
+    p.add_argument("--wait", action="store_true", help="open the monitor even when the source does not "
+                   "answer at start (refused or unknown TCP host, device not plugged in yet) and keep "
+                   "trying; without it that is an error (exit 2)")
 
 
 def needs_ascii(env: Mapping[str, str]) -> bool:
@@ -116,8 +119,13 @@ def run(args: argparse.Namespace) -> int:
         verdict, profile_name = _verdict(args.profile)
     except ValueError as exc:  # includes the profile loader's own one-line errors
         return _fail(str(exc))
+    from livefix.sources.probe import check_file, first_contact
+
+    wait = bool(getattr(args, "wait", False))
     try:
-        source = open_source(args.source, speed=speed, baud=_baud(args.baud))
+        source = open_source(args.source, speed=speed, baud=_baud(args.baud), wait=wait)
+        first_contact(source, wait=wait)  # the screen opens only for a source that answers
+        check_file(source)
     except (SourceError, OSError, ValueError) as exc:
         return _fail(str(exc))
     return _run_app(source, args, palette, ref, verdict, profile_name)
@@ -160,5 +168,6 @@ def run_replay(args: argparse.Namespace) -> int:
     speed = str(getattr(args, "speed", "max"))
     PROG["name"] = "livefix replay"
     ns = argparse.Namespace(source=args.file, theme=None, ref=None, record=None,
-                            speed="1" if speed == "max" else speed, ascii=False, profile=None, baud="auto")
+                            speed="1" if speed == "max" else speed, ascii=False, profile=None, baud="auto",
+                            wait=False)
     return run(ns)

@@ -13,6 +13,7 @@ from livefix.ui.panel import TextPanel
 KIND_ROLE: dict[str, str] = {
     "fix_lost": "bad", "jump": "warn", "interference": "warn", "stall": "stale", "link": "warn",
     "time_jump": "warn", "time_rollback": "warn", "receiver_restart": "warn", "checksum_burst": "warn",
+    "time_fault": "warn", "receiver_date_invalid": "warn",
     "marker": "value", "recording": "value", "fix_regained": "ok",
 }
 

@@ -9,6 +9,8 @@ import datetime as _dt
 from collections.abc import Sequence
 from typing import Any
 
+from livefix.timefmt import UNDATED_BEFORE
+
 DASH = "—"
 
 # C/N0 grade boundaries, dB-Hz (common practice: under ~30 weak, 37-45 typical open sky, see
@@ -99,6 +101,8 @@ def utc_text(posix: float | None) -> str:
     if posix is None:
         return DASH
     d = _dt.datetime.fromtimestamp(posix, tz=_dt.UTC)
+    if posix < UNDATED_BEFORE:  # carried without a date (livefix.timefmt): no made-up day
+        return d.strftime("date unknown %H:%M:%S") + " UTC"
     return d.strftime("%Y-%m-%d %H:%M:%S") + " UTC"
 
 

@@ -50,7 +50,7 @@ class SatTable(ScrollView, can_focus=True):
         self._rebuild(sky)
 
     def _row(self, o: Any, ascii_only: bool) -> str:
-        cn0 = "—" if o.cn0 is None else f"{o.cn0:d}"
+        cn0 = "—" if o.cn0 is None else f"{o.cn0:.0f}"
         age = max(0.0, self.now - o.last_seen_mono) if o.last_seen_mono else 0.0
         elev = "—" if o.elev is None else f"{o.elev:>2d}°"
         azim = "—" if o.azim is None else f"{o.azim:>3d}°"

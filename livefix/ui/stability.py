@@ -18,6 +18,37 @@ def _enu(d: Any, fmt: str = M, unit: str = "") -> str:
     return "  ".join(f"{k} {num(d.get(k), fmt, unit)}" for k in ("e", "n", "u"))
 
 
+def _ttff(fix: dict[str, Any]) -> str:
+    """A session that began with a fix never saw the receiver acquire: "not observed", never 0."""
+    note = fix.get("ttff_note")
+    if fix.get("ttff_s") is None and isinstance(note, str) and note.startswith("not observed"):
+        return "not observed"
+    return duration(fix.get("ttff_s"))
+
+
+def _drift(p: dict[str, Any]) -> str:
+    """Drift per axis as value ± half its 95 % interval: a slope without its uncertainty misleads."""
+    d, ci = p.get("drift_mm_per_h"), p.get("drift_ci95_mm_per_h") or {}
+    if not isinstance(d, dict):
+        return DASH
+    out = []
+    for k in ("e", "n", "u"):
+        iv = ci.get(k)
+        pm = f"±{(iv[1] - iv[0]) / 2:.1f}" if isinstance(iv, list) and None not in iv else ""
+        out.append(f"{k} {num(d.get(k), '.1f')}{pm}")
+    return "  ".join(out)
+
+
+def _scatter(a: dict[str, Any], p: dict[str, Any]) -> str:
+    m = a.get("motion") or {}
+    if m.get("state") == "moving":
+        return "not measured (receiver moving)"
+    text = f"{num(p.get('cep50_m'), M)} / {num(p.get('cep95_m'), M)} m  2DRMS {num(p.get('drms2_m'), M)}"
+    if m.get("state") == "mixed" and isinstance(m.get("moving_share"), (int, float)):
+        text += f"  static part ({m['moving_share'] * 100:.0f} % moved)"
+    return text
+
+
 def lines(a: dict[str, Any]) -> list[tuple[str, str]]:
     """(label, value) rows from the analysis dict; every missing key is a dash."""
     p = a.get("position") or {}
@@ -34,12 +65,12 @@ def lines(a: dict[str, Any]) -> list[tuple[str, str]]:
         ("reference", f"{num(ref.get('lat'), '.7f')} {num(ref.get('lon'), '.7f')} {num(ref.get('h'), '.2f')}"
                       + (f" {ref.get('source')}" if ref.get("source") else "")),
         ("offset m", _enu(p.get("offset_m"))),
-        ("CEP50/95", f"{num(p.get('cep50_m'), M)} / {num(p.get('cep95_m'), M)} m  2DRMS {num(p.get('drms2_m'), M)}"),
+        ("CEP50/95", _scatter(a, p)),
         ("vert 95%", f"{num(p.get('v95_m'), M, ' m')}  converged "
                      + ("not yet" if conv is None else f"after {duration(conv)}")
                      + ("" if conv_v is None else f" (v {duration(conv_v)})")),
-        ("drift mm/h", _enu(p.get("drift_mm_per_h"), ".1f")),
-        ("TTFF", duration(fix.get("ttff_s")) + (f" RTK {duration(rtk)}" if rtk is not None else "")
+        ("drift mm/h", _drift(p)),
+        ("TTFF", _ttff(fix) + (f" RTK {duration(rtk)}" if rtk is not None else "")
          + "  avail " + (f"{has * 100:.1f} %" if avail else DASH)
          + (f" lost {fix.get('fix_losses')}" if fix.get("fix_losses") is not None else "")),
         ("DOP rep/cmp", " ".join(f"{k[0].upper()} {num(dop_r.get(k), '.1f')}/{num(dop_c.get(k), '.1f')}"

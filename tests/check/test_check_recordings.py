@@ -75,7 +75,8 @@ def test_could_not_run_exits_2(tmp_path, livefix):
     empty = tmp_path / "empty.nmea"
     empty.write_bytes(b"")
     r = livefix("check", str(empty))
-    assert r.returncode == 2 and "no data" in r.stderr
+    # issue 15 item 5: a file without NMEA is named for what it holds ("FILE is empty"), at once
+    assert r.returncode == 2 and "empty.nmea is empty" in r.stderr
 
 
 def test_report_command(tmp_path, livefix):

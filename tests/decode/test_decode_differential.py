@@ -136,8 +136,7 @@ def generate(msg_id: str, count: int, seed: int) -> list[bytes]:
     return [gen_simple(r, msg_id) for _ in range(count)]
 
 
-def reference(line: bytes) -> dict[str, Any] | None:
-    """pynmeagps' view: the public attributes, or None when it raises / gives nothing."""
+def _strict(line: bytes) -> dict[str, Any] | None:
     try:
         msg = NMEAReader.parse(line)
     except Exception:
@@ -145,6 +144,39 @@ def reference(line: bytes) -> dict[str, Any] | None:
     if msg is None:
         return None
     return {k: v for k, v in vars(msg).items() if not k.startswith("_")}
+
+
+def reference(line: bytes) -> dict[str, Any] | None:
+    """pynmeagps' view: the public attributes, or None when it raises / gives nothing.
+
+    One documented deviation (livefix/decode/fast.py `_gsv_decimal_cn0`): a GSV whose C/N0 fields
+    carry decimals (some receivers write 48.4 dB-Hz) is accepted with those values as floats. The
+    expectation is built independently: pynmeagps parses the line with each such C/N0 replaced by
+    "00" (checksum recomputed), and the decimal texts are then put back as float()."""
+    got = _strict(line)
+    if got is not None or b"GSV," not in line[:7] or b"*" not in line:
+        return got
+    body, _, _ = line[1:].partition(b"*")
+    f = body.split(b",")
+    dec: dict[int, float] = {}
+    for i in range(7, len(f) - (len(f) - 4) % 4 if len(f) > 4 else 0, 4):  # cno fields: 3 + 4j + 3
+        if i < len(f) and b"." in f[i]:
+            whole, _, frac = f[i].partition(b".")  # the dd.d shape only (at most 3 decimals)
+            if not (whole.isdigit() and frac.isdigit() and len(whole) <= 2 and len(frac) <= 3):
+                return None
+            dec[i], f[i] = float(f[i]), b"00"
+    if not dec:
+        return None
+    new_body = b",".join(f)
+    x = 0
+    for b in new_body:
+        x ^= b
+    base = _strict(b"$" + new_body + b"*%02X" % x)
+    if base is None:
+        return None
+    for i, v in dec.items():
+        base[f"cno_{(i - 3) // 4:02d}"] = v
+    return base
 
 
 def same(a: dict[str, Any], b: dict[str, Any]) -> bool:

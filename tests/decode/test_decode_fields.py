@@ -90,3 +90,21 @@ def test_latlon_near_rounding_ties() -> None:
 def test_checksum_matches_calc_checksum(body: str) -> None:
     # Reference: pynmeagps calc_checksum (XOR of the characters, NMEA 0183).
     assert f"{xor_checksum(body.encode('ascii')):02X}" == calc_checksum(body)
+
+
+def test_gsv_with_decimal_cn0_keeps_its_values() -> None:
+    # Some receivers write C/N0 with one decimal (NMEA 0183 defines the field as a whole 00-99 dB-Hz);
+    # refusing the line would empty a working receiver's sky. Values read from the invented line.
+    from livefix.decode.decoder import Decoder
+
+    body = "GPGSV,1,1,02,18,81,354,48.4,01,64,224,39"
+    x = 0
+    for b in body.encode():
+        x ^= b
+    got = Decoder().decode(f"${body}*{x:02X}".encode())
+    assert got.fields["cno_01"] == 48.4 and got.fields["cno_02"] == 39
+    bad = "GPGSV,1,1,01,18,81,354,1E-3"
+    x = 0
+    for b in bad.encode():
+        x ^= b
+    assert type(Decoder().decode(f"${bad}*{x:02X}".encode())).__name__ == "Rejected"  # not a dd.d text

@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+from binkit import b562, nmea, rtcm3
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
+from livefix.decode import Decoded
+from livefix.decode.decoder import Decoder
 from livefix.framing import MAX_LEN, Framer
 
 # Public example sentences (D. DePriest's NMEA data reference page, see shared/REFERENCES.md).
@@ -19,7 +22,7 @@ def whole(data: bytes, max_len: int = MAX_LEN) -> tuple[list[bytes], tuple]:
     f = Framer(max_len)
     out = f.feed(data) + f.finish()
     c = f.counters
-    return out, (c.bytes, c.lines, c.junk_bytes, c.overlong)
+    return out, (c.bytes, c.lines, c.junk_bytes, c.overlong, c.binary_frames, c.binary_bytes)
 
 
 def split(data: bytes, cuts: list[int], max_len: int = MAX_LEN) -> tuple[list[bytes], tuple]:
@@ -29,10 +32,11 @@ def split(data: bytes, cuts: list[int], max_len: int = MAX_LEN) -> tuple[list[by
     for cut in sorted(set(cuts)) + [len(data)]:
         out += f.feed(data[prev:cut])
         prev = cut
-        assert f.buffered <= max_len + 1  # the buffer never holds more than one capped sentence
+        # the buffer never holds more than one capped sentence and one binary frame still arriving
+        assert f.buffered <= f.max_buffered
     out += f.finish()
     c = f.counters
-    return out, (c.bytes, c.lines, c.junk_bytes, c.overlong)
+    return out, (c.bytes, c.lines, c.junk_bytes, c.overlong, c.binary_frames, c.binary_bytes)
 
 
 def bytewise(data: bytes, max_len: int = MAX_LEN) -> tuple[list[bytes], tuple]:
@@ -45,7 +49,7 @@ def test_every_terminator_style() -> None:
         data = term.join(PUBLIC) + term
         out, counters = whole(data)
         assert out == list(PUBLIC)
-        assert counters == (len(data), 4, 0, 0)
+        assert counters == (len(data), 4, 0, 0, 0, 0)
         assert bytewise(data) == (out, counters)
 
 
@@ -62,7 +66,7 @@ def test_dollar_mid_line_returns_the_broken_part() -> None:
     data = GGA[:30] + RMC + b"\r\n"  # a line cut short by a new sentence
     out, counters = whole(data)
     assert out == [GGA[:30], RMC]
-    assert counters[1:] == (2, 0, 0)
+    assert counters[1:] == (2, 0, 0, 0, 0)
     assert bytewise(data) == (out, counters)
 
 
@@ -73,7 +77,7 @@ def test_overlong_line_dropped_and_counted() -> None:
     data = long86 + b"\r\n" + huge + b"\r\n" + GGA + b"\r\n" + huge + GSA + b"\r\n"
     out, counters = whole(data)
     assert out == [long86, GGA, GSA]
-    assert counters[1:] == (3, 0, 2)
+    assert counters[1:] == (3, 0, 2, 0, 0)
     assert bytewise(data) == (out, counters)
 
 
@@ -91,6 +95,22 @@ def test_aivdm_style_bang_start() -> None:
     assert out == [line, GGA]
 
 
+def test_bang_inside_a_sentence_is_data() -> None:
+    # NMEA reserves '!', but receivers put it in text and proprietary fields and checksum it with the
+    # rest (a real log does so in every proprietary traffic sentence: see shared/realdata/SOURCES.md,
+    # pysandbox_2020-10-04_20-24.nmea); splitting there turned each valid line into two refused ones
+    txt = nmea("GPTXT,01,01,02,ANTENNA SHORT!")  # invented text, checksum computed by binkit.nmea
+    prop = nmea("PXYZA,2,170,444,82,1,A1B2C3!TAG_A1B2C3,244,,29,,1")  # invented proprietary body
+    bang = b"!XXTST,1,2,3*00"  # '!' still opens a sentence outside one (IEC 61162-1 encapsulation)
+    data = txt + b"\r\n" + prop + b"\r\n" + bang + b"\r\n"
+    out, counters = whole(data)
+    assert out == [txt, prop, bang]
+    assert counters[1:] == (3, 0, 0, 0, 0)
+    assert bytewise(data) == (out, counters)
+    d = Decoder()
+    assert isinstance(d.decode(txt), Decoded)  # whole line, checksum valid (NMEA 0183 XOR)
+
+
 def test_buffer_bounded_on_endless_garbage_without_terminator() -> None:
     f = Framer(max_len=64)
     for _ in range(200):
@@ -99,8 +119,14 @@ def test_buffer_bounded_on_endless_garbage_without_terminator() -> None:
     assert f.counters.overlong == 200
 
 
+# Binary frames (built in binkit from the RTCM 10403.x and 0xB5 0x62 layouts) with `$`, CR and LF in
+# their payloads, a frame with a wrong checksum, and bare sync bytes and headers cut short.
+FRAMES = [rtcm3(b"$GPGGA,\r\n" + bytes(range(40))), b562(0x01, 0x07, b"x$y\r\n!" * 5), rtcm3(b""),
+          b562(0x0A, 0x04, b"")]
+BROKEN = [b562(0x01, 0x07, b"$GP")[:-1] + b"\x00", b"\xd3", b"\xd3\x00", b"\xb5", b"\xb5\x62\x01\x02\x05",
+          b"\xd3\xfc\x00"]
 pieces = st.lists(st.sampled_from([*PUBLIC, b"\r\n", b"\n", b"\r", b"$", b"!", b"*", b"\x00\xff",
-                                   b"junk", b"$GP" + b"x" * 100]), max_size=30)
+                                   b"junk", b"$GP" + b"x" * 100, *FRAMES, *BROKEN]), max_size=30)
 
 
 @settings(max_examples=150, deadline=None)
@@ -110,6 +136,9 @@ def test_any_split_gives_identical_output(parts: list[bytes], cuts: list[int]) -
     ref = whole(data, max_len=64)
     assert split(data, [c for c in cuts if c <= len(data)], max_len=64) == ref
     assert bytewise(data, max_len=64) == ref
-    # nothing is lost: every byte is in a sentence, a terminator, junk, or an overlong line
-    out, (nbytes, lines, _junk, _over) = ref
+    # nothing is lost: every byte is in a sentence, a terminator, junk, a binary frame or an overlong line
+    out, (nbytes, lines, junk, _over, nframes, nbin) = ref
     assert nbytes == len(data) and lines == len(out)
+    assert junk + nbin + sum(map(len, out)) <= nbytes
+    # frames are found only where whole ones were placed (a checksum does not match by chance here)
+    assert nframes <= sum(p in FRAMES for p in parts)

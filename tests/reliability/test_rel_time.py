@@ -90,9 +90,10 @@ def test_receiver_with_the_week_rollover_bug_is_reported_not_hidden() -> None:
     bad = good - dt.timedelta(weeks=1024)
     assert bad == dt.date(1999, 8, 22)
     p, eps = feed([("120000.00", good.strftime("%d%m%y")), ("120001.00", bad.strftime("%d%m%y"))])
-    assert eps[1].utc == posix(1999, 8, 22, 12, 0, 1)
-    k = kinds(p)
-    assert "date_change" in k and "time_rollback" in k
+    # issue 13 item 7: a date 1024 weeks early is flagged and never used to place the epoch
+    assert eps[1].utc is None
+    ev = [e for e in p.snapshot().analysis["events"] if e["kind"] == "receiver_date_invalid"]
+    assert len(ev) == 1 and ev[0]["date"] == "1999-08-22" and "1024 weeks" in ev[0]["reason"]
 
 
 @pytest.mark.parametrize("ddmmyy", ["060180", "010180", "010180", "311279", "010179", "010100"])
@@ -100,16 +101,22 @@ def test_two_digit_years_read_as_the_reference_library_reads_them(ddmmyy: str) -
     body = f"GPRMC,000000.00,A,4807.038,N,01131.000,E,0.1,84.4,{ddmmyy},,,A"
     ref = NMEAReader.parse(line(body)).date  # pynmeagps
     p, eps = feed([("000000.00", ddmmyy)])
-    assert eps[0].utc == dt.datetime(ref.year, ref.month, ref.day, tzinfo=UTC).timestamp()
+    # these are receiver default dates (1979/1980 before or at the GPS epoch, 2000-01-01): issue 13
+    # item 7 flags them and gives the epoch no UTC; the date read must still be the reference's
+    assert eps[0].utc is None
+    ev = [e for e in p.snapshot().analysis["events"] if e["kind"] == "receiver_date_invalid"]
+    assert [e["date"] for e in ev] == [ref.isoformat()]
 
 
 def test_receiver_clock_starting_in_1980_then_correct_is_a_jump_event() -> None:
     rows = [("000000.00", "060180"), ("000001.00", "060180"), ("083000.00", "120526"), ("083001.00", "120526")]
     p, eps = feed(rows)
-    assert eps[0].utc == GPS_EPOCH.timestamp()
+    # issue 13 item 7: the 1980 default date never places an epoch; the first valid date starts the
+    # clock afresh (no 46-year jump)
+    assert eps[0].utc is None and eps[1].utc is None
     assert eps[2].utc == posix(2026, 5, 12, 8, 30)
-    assert "time_jump" in kinds(p)
-    assert p.snapshot().analysis  # analysis survives a 46-year step
+    assert "receiver_date_invalid" in kinds(p) and "time_jump" not in kinds(p)
+    assert p.snapshot().analysis["internal_errors"] == 0
 
 
 def test_receiver_clock_in_2080_beyond_32_bit_time_then_back() -> None:
@@ -119,15 +126,18 @@ def test_receiver_clock_in_2080_beyond_32_bit_time_then_back() -> None:
     orig = p.analyzer.on_epoch
     p.analyzer.on_epoch = lambda ep: (eps.append(ep), orig(ep))
     for i, (hms, d, m, y) in enumerate([("120000.00", 1, 1, 2080), ("120001.00", 1, 1, 2080),
-                                        ("120002.00", 12, 5, 2026)]):
+                                        ("120002.00", 12, 5, 2026), ("120003.00", 12, 5, 2026),
+                                        ("120004.00", 12, 5, 2026)]):
         data = line(f"GPGGA,{hms},4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,") + b"\r\n"
         data += line(f"GPZDA,{hms},{d:02d},{m:02d},{y},00,00") + b"\r\n"
         p.feed(Chunk(float(i), 1.7e9 + i, data))
     p.finish()
     assert eps[0].utc == posix(2080, 1, 1, 12) and eps[0].utc > 2**31  # beyond 32-bit time_t
     assert eps[1].utc == posix(2080, 1, 1, 12, 0, 1)
-    assert eps[2].utc == posix(2026, 5, 12, 12, 0, 2)
-    assert "time_rollback" in kinds(p) and "date_change" in kinds(p)
+    # issue 13 item 5: the step back moves the clock once two following epochs run on from it
+    assert eps[2].utc is None and eps[3].utc is None
+    assert eps[4].utc == posix(2026, 5, 12, 12, 0, 4)
+    assert "time_rollback" in kinds(p) and "date_change" in kinds(p) and "time_fault" not in kinds(p)
 
 
 def test_time_repeating_and_running_backwards_without_a_date() -> None:
@@ -135,4 +145,6 @@ def test_time_repeating_and_running_backwards_without_a_date() -> None:
             ("120002.00", None)]
     p, eps = feed(rows)
     assert len(eps) + p.state.late >= 4  # a repeated time joins/closes an epoch; nothing raises
-    assert "time_rollback" in kinds(p)
+    # issue 13 item 5: 11:59:50 is 11 s back (beyond the 10-interval jump limit) and the old clock
+    # runs on at 12:00:02: a time fault, not a new clock
+    assert "time_fault" in kinds(p) and "time_rollback" not in kinds(p)

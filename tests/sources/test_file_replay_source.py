@@ -8,7 +8,6 @@ import time
 
 import pytest
 
-from livefix.record.plainlog import NO_DATE_BASE
 from livefix.record.writer import Recorder
 from livefix.sources import SourceError, open_source
 from livefix.sources.base import Chunk, Link, LinkEvent
@@ -44,8 +43,9 @@ def test_plain_log_paced_by_utc_with_junk_kept(tmp_path) -> None:
     chunks = [it for it in items if type(it) is Chunk]
     assert b"".join(c.data for c in chunks) == body  # byte-exact, junk included
     assert [c.mono for c in chunks] == [0.0, 1.0, 2.0, 5.0]  # midnight rollover unwrapped
-    # before the date is known: 2000-01-01 + time of day; 2000-01-01 is POSIX 946684800 (common practice)
-    assert chunks[0].wall == NO_DATE_BASE + 86398.0
+    # lines before the first date take that date when the times run on (issue 13 item 7): the RMC
+    # says 2025-01-02 at 00:00:00, so 23:59:58 was on 2025-01-01 (calendar.timegm)
+    assert chunks[0].wall == calendar.timegm((2025, 1, 1, 23, 59, 58))
     # RMC date 02 Jan 2025 (ddmmyy, NMEA 0183): wall = that midnight + time of day (calendar.timegm)
     assert chunks[2].wall == calendar.timegm((2025, 1, 2, 0, 0, 0))
     assert chunks[3].wall == calendar.timegm((2025, 1, 2, 0, 0, 3))

@@ -44,22 +44,29 @@ def test_complete_set_replaces_group() -> None:
     assert prns(sm) == ["G05", "G06"]  # the whole group is replaced, never merged
 
 
-def test_broken_sets_are_discarded_and_never_mixed() -> None:
+def test_incomplete_sets_keep_what_is_whole() -> None:
+    # Issue 13, case 2 (replaces "broken sets are discarded"): a repeated part is not a new set; a
+    # set that lost a part keeps the parts that arrived whole, filled from the last set only when
+    # the satellites-in-view total says exactly which satellites the lost part held.
     sm = StateModel()
     feed(sm, [GSV, GSV_2_2])
     before = prns(sm)
     third = line("GPGSV,3,3,09,30,10,010,30")
-    feed(sm, [GSV, GSV])  # restart at 1 (first set broken)
-    feed(sm, [third])  # numMsg changed: the open 2-part set and this stray part (2 sets)
+    feed(sm, [GSV, GSV])  # part 1 twice, byte for byte: one part, not a restart
+    assert sm.gsv_incomplete == 0
+    # numMsg changes: the open 2-part set ended with part 1 only; 4 seen + 4 carried = its total 8
+    feed(sm, [third])
+    # ... and the stray 3/3: 1 seen + the last set's 8 = its total 9, so they are carried
+    assert prns(sm) == sorted(before + ["G30"])
     feed(sm, [line("GPGSV,3,1,09,03,40,083,46,04,17,308,41,05,07,344,39,06,22,228,45"),
-              line("GPGSV,3,3,09,30,10,010,30")])  # missing part 2: one broken set
-    assert prns(sm) == before
-    assert sm.gsv_incomplete == 4  # 1 restart + 2 numMsg change + 1 missing part
+              line("GPGSV,3,3,09,30,10,010,30")])  # part 2 lost: 5 seen, 5 + 8 carried != 9
+    assert prns(sm) == ["G03", "G04", "G05", "G06", "G30"]  # what arrived whole, nothing guessed
+    assert sm.gsv_incomplete == 3  # hand count: the cut 2-part set, the stray 3/3, the set missing 2/3
     ev = [e for e in sm.drain_events() if e.kind == "gsv_incomplete"]
     assert len(ev) == 1  # rate-limited: one event for the burst
     sm.finish()
     tail = [e for e in sm.drain_events() if e.kind == "gsv_incomplete"]
-    assert sum(e.data["count"] for e in ev + tail) == 4
+    assert sum(e.data["count"] for e in ev + tail) == 3
 
 
 def test_groups_per_talker_and_signal() -> None:

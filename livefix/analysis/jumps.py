@@ -1,0 +1,146 @@
+"""Position jumps and re-convergence periods, kept out of the scatter.
+
+Why: one jump on an RTK-fixed soak with millimetre noise (a wrong ambiguity fix, a multipath
+burst) puts a fraction of the epochs metres away and makes CEP50/R95 describe the jump, not the
+receiver. Scatter must describe the converged receiver, so such spells are reported on their own
+(count, size, duration) and their epochs do not enter CEP/R95/V95, drift or Allan deviation.
+
+Rule, per fix type (thresholds in AnalysisConfig, shown in the snapshot):
+- settled centre: exponentially weighted mean of the accepted epochs (about EW_N epochs of
+  memory) and their spread sigma (horizontal, vertical);
+- after WARMUP accepted epochs, an epoch further from the centre than
+  max(converge radius of its fix type, jump_sigma * sigma) opens an *excursion*; the centre is
+  frozen while it lasts;
+- the excursion closes when the position has been back within that limit for jump_hold_s (the
+  re-convergence is part of the excursion), or, when it stays away, after jump_level_s as a new
+  level: the centre moves there (the antenna was moved or the solution settled elsewhere).
+"""
+
+from __future__ import annotations
+
+import math
+from collections import deque
+from typing import Any
+
+from livefix.analysis.config import AnalysisConfig
+from livefix.analysis.streaming import num
+from livefix.timefmt import iso
+
+EW_N = 300.0  # memory of the settled centre and spread, epochs
+WARMUP = 20  # accepted epochs of a fix type before excursions are looked for
+LIST_CAP = 100  # newest excursions listed; older ones only counted
+
+
+class _Centre:
+    """Exponentially weighted centre and spread of one fix type (O(1), bounded)."""
+
+    __slots__ = ("n", "c", "vh", "nu", "vu")
+
+    def __init__(self) -> None:
+        self.n = 0
+        self.c = [0.0, 0.0, 0.0]
+        self.vh = 0.0  # horizontal variance (E + N)
+        self.nu = 0  # epochs with a height
+        self.vu = 0.0
+
+    def add(self, e: float, n: float, u: float) -> None:
+        self.n += 1
+        a = max(1.0 / self.n, 1.0 / EW_N)
+        c = self.c
+        de, dn = e - c[0], n - c[1]
+        c[0] += a * de
+        c[1] += a * dn
+        self.vh = (1 - a) * (self.vh + a * (de * de + dn * dn))
+        if u == u:  # finite height (NaN when the epoch has none)
+            self.nu += 1
+            b = max(1.0 / self.nu, 1.0 / EW_N)
+            du = u - c[2]
+            c[2] += b * du
+            self.vu = (1 - b) * (self.vu + b * du * du)
+
+
+class Jumps:
+    """Excursion detector for all fix types; `check` says whether an epoch belongs in the scatter."""
+
+    def __init__(self, config: AnalysisConfig) -> None:
+        self.cfg = config
+        self.lim_h = dict(config.converge_h)
+        self.lim_v = dict(config.converge_v)
+        self.centres: dict[str, _Centre] = {}
+        self.open: dict[str, dict[str, Any]] = {}  # fix -> the running excursion
+        self.items: deque[dict[str, Any]] = deque(maxlen=LIST_CAP)
+        self.total = 0
+        self.excluded = 0  # epochs kept out of the scatter
+        self.excluded_s = 0.0
+
+    def limits(self, fix: str, c: _Centre) -> tuple[float, float]:
+        k = self.cfg.jump_sigma
+        return (max(self.lim_h.get(fix, self.cfg.jump_m), k * math.sqrt(c.vh)),
+                max(self.lim_v.get(fix, 2.0 * self.cfg.jump_m), k * math.sqrt(c.vu)))
+
+    def check(self, fix: str, t: float, abs_t: float | None, e: float, n: float, u: float) -> bool:
+        """True when the epoch (session time t) is settled behaviour, False inside an excursion."""
+        c = self.centres.get(fix)
+        if c is None:
+            c = self.centres[fix] = _Centre()
+        if c.n < WARMUP:
+            c.add(e, n, u)
+            return True
+        lh, lv = self.limits(fix, c)
+        dh = math.hypot(e - c.c[0], n - c.c[1])
+        dv = abs(u - c.c[2]) if u == u and c.nu >= WARMUP else 0.0
+        out = dh > lh or dv > lv
+        x = self.open.get(fix)
+        if x is None:
+            if not out:
+                c.add(e, n, u)
+                return True
+            x = self.open[fix] = {"t": t, "start": iso(abs_t), "fix": fix, "size_h_m": dh, "size_v_m": dv,
+                                  "back": None, "last": t, "lvl": [e, n, u, 0]}
+            self.total += 1
+        self._note(x, t, e, n, u, dh, dv, out)
+        if not out:
+            if x["back"] is None:
+                x["back"] = t
+            elif t - x["back"] >= self.cfg.jump_hold_s:
+                self._close(fix, x, "returned", x["back"])
+        elif t - x["t"] >= self.cfg.jump_level_s:
+            lvl = x["lvl"]
+            c.c[0], c.c[1] = lvl[0], lvl[1]
+            if lvl[2] == lvl[2]:
+                c.c[2] = lvl[2]
+            self._close(fix, x, "new_level", t)
+        return False
+
+    def _note(self, x: dict[str, Any], t: float, e: float, n: float, u: float, dh: float, dv: float,
+              out: bool) -> None:
+        """Size, excluded time and the running mean of the excursion's positions (a new level)."""
+        self.excluded += 1
+        if t > x["last"]:
+            self.excluded_s += t - x["last"]
+        x["last"] = t
+        x["size_h_m"] = max(x["size_h_m"], dh)
+        x["size_v_m"] = max(x["size_v_m"], dv)
+        if out:
+            x["back"] = None
+        lvl = x["lvl"]
+        lvl[3] += 1
+        a = 1.0 / lvl[3]
+        lvl[0] += a * (e - lvl[0])
+        lvl[1] += a * (n - lvl[1])
+        if u == u:
+            lvl[2] = u if lvl[2] != lvl[2] else lvl[2] + a * (u - lvl[2])
+
+    def _close(self, fix: str, x: dict[str, Any], how: str, end: float) -> None:
+        del self.open[fix]
+        self.items.append({"start": x["start"], "fix": fix, "size_h_m": num(x["size_h_m"], 3),
+                           "size_v_m": num(x["size_v_m"], 3), "duration_s": num(end - x["t"], 2), "end": how})
+
+    def snapshot(self) -> dict[str, Any]:
+        items = list(self.items) + [
+            {"start": x["start"], "fix": f, "size_h_m": num(x["size_h_m"], 3), "size_v_m": num(x["size_v_m"], 3),
+             "duration_s": num(x["last"] - x["t"], 2), "end": "ongoing"} for f, x in sorted(self.open.items())]
+        return {"count": self.total, "excluded_epochs": self.excluded, "excluded_s": num(self.excluded_s, 2),
+                "items": items,
+                "rule": {"radius_h_m": dict(self.lim_h), "radius_v_m": dict(self.lim_v), "sigma_k": self.cfg.jump_sigma,
+                         "hold_s": self.cfg.jump_hold_s, "level_s": self.cfg.jump_level_s}}
