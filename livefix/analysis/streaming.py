@@ -12,6 +12,7 @@ from math import isfinite, log10
 
 import numpy as np
 
+from livefix.state.dates import jump_limit
 from livefix.state.epoch import Epoch
 
 
@@ -49,7 +50,9 @@ class Timeline:
     Receiver UTC is preferred; a step is taken from UTC when both epochs carry it and it moves
     forward by less than a day, otherwise from the host monotonic stamps. So a receiver that loses
     its clock (UTC jumps back, or goes missing) does not fold the timeline; `reset` reports that
-    UTC went back by more than a second, which together with a lost fix means a receiver restart.
+    UTC went back by more than a forward jump would need (livefix.state.dates.jump_limit, 10 s),
+    which together with a lost fix means a receiver restart. A step back of about a second (seen when
+    a receiver changes talker as a constellation joins) is not a restart.
     A UTC step is taken from the session time of the last timed epoch: epochs without a time in
     between (a receiver without a fix often leaves the time empty) moved on by host time, and
     must not be counted twice; the timeline never goes back.
@@ -76,7 +79,7 @@ class Timeline:
                 d = utc - self._utc
                 if 0.0 <= d < 86400.0:
                     dt = max(0.0, self._utc_t + d - t)
-                elif d < -1.0:
+                elif d < -jump_limit(1.0):  # far back: a restart; a second or so is clock jitter
                     self.reset = True
             if dt is None:
                 dt = max(0.0, mono - self._mono) if self._mono is not None else 0.0
