@@ -29,7 +29,7 @@ fuzz: $(STAMP)
 	$(PY) bench/fuzz.py --inputs 1000000
 
 recordings: $(STAMP)
-	$(PY) -m livefix.sim.make_recordings
+	$(PY) -m livefix.commands.make_recordings
 
 clean:
 	rm -rf $(VENV) build *.egg-info .pytest_cache .ruff_cache

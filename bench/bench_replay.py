@@ -129,7 +129,7 @@ def time_reference(lines: list[bytes]) -> float:
 
 def report_json(path: Path) -> str:
     """Exactly `livefix report FILE --json`, in this process; returns the JSON text."""
-    from livefix.report.command import add_arguments, run
+    from livefix.commands.report import add_arguments, run
 
     ap = argparse.ArgumentParser()
     add_arguments(ap)

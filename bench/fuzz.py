@@ -140,7 +140,7 @@ def main() -> int:
     c = p.counters()
     peak = resource.getrusage(resource.RUSAGE_SELF).ru_maxrss / 1024
     growth = (rss_kib() - rss_early) / 1024
-    accounted = c.lines == c.decoded + c.bad_checksum + c.malformed + c.unknown
+    accounted = c.lines == c.decoded + c.bad_checksum + c.malformed + c.unknown and c.internal_errors == 0
     for tb in first:
         print(tb, file=sys.stderr)
     print(f"inputs {args.inputs}, bytes {c.bytes}, lines {c.lines}, decoded {c.decoded}, bad_checksum "

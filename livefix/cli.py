@@ -10,11 +10,11 @@ import sys
 # name -> (module with add_arguments(parser) and run(args) -> int, one-line help)
 COMMANDS: dict[str, tuple[str, str]] = {
     "watch": ("livefix.ui.command", "full-screen live monitor of a source (or replay of a recording)"),
-    "check": ("livefix.check.command", "headless pass/fail run of one or more sources against a profile"),
-    "report": ("livefix.report.command", "analyse a recording or NMEA log and write JSON/Markdown/HTML"),
-    "record": ("livefix.record.command", "record a source losslessly to a file"),
-    "replay": ("livefix.record.replay_command", "replay a recording through the pipeline"),
-    "simulate": ("livefix.sim.command", "run the built-in simulated receiver"),
+    "check": ("livefix.commands.check", "headless pass/fail run of one or more sources against a profile"),
+    "report": ("livefix.commands.report", "analyse a recording or NMEA log and write JSON/Markdown/HTML"),
+    "record": ("livefix.commands.record", "record a source losslessly to a file"),
+    "replay": ("livefix.commands.replay", "replay a recording through the pipeline"),
+    "simulate": ("livefix.commands.simulate", "run the built-in simulated receiver"),
 }
 
 

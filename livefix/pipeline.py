@@ -8,7 +8,7 @@ Stage interfaces it relies on:
   livefix.framing.Framer:   feed(data: bytes) -> list[bytes]  (complete sentences, no terminator)
                             finish() -> list[bytes]; counters: FrameCounters(lines, bytes, junk_bytes,
                             overlong, binary_frames, binary_bytes)
-  livefix.decode.Decoder:   decode(line: bytes) -> Decoded | Rejected; counters: DecodeCounters
+  livefix.decode.decoder.Decoder: decode(line: bytes) -> Decoded | Rejected; counters: DecodeCounters
   livefix.state.StateModel: on_link(LinkEvent), on_marker(Marker), on_chunk(mono, wall),
                             on_sentence(Decoded, mono, wall) -> list[Epoch] (completed epochs),
                             on_rejected(Rejected, mono, wall), finish() -> list[Epoch],
@@ -26,7 +26,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
-from livefix.sources.base import Chunk, Item, LinkEvent, Marker
+from livefix.items import Chunk, Item, LinkEvent, Marker
 from livefix.state.epoch import Epoch, SatObs
 
 
@@ -49,6 +49,8 @@ class StreamCounters:
     recent_rejects: tuple[str, ...] = ()  # last few refused lines, as repr text, for display
     binary_frames: int = 0  # verified binary frames skipped by the framer (livefix.binframe)
     binary_bytes: int = 0
+    internal_errors: int = 0  # the decoder's own failures (livefix.faults), apart from bad input
+    last_internal_error: str | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -173,7 +175,8 @@ class Pipeline:
             decoded=d.decoded, bad_checksum=d.bad_checksum, malformed=d.malformed, unknown=d.unknown,
             proprietary=d.proprietary, by_type=dict(d.by_type), by_talker_type=dict(d.by_talker_type),
             rejected_by_type=dict(d.rejected_by_type), recent_rejects=tuple(self._rejects),
-            binary_frames=f.binary_frames, binary_bytes=f.binary_bytes)
+            binary_frames=f.binary_frames, binary_bytes=f.binary_bytes, internal_errors=d.internal_errors,
+            last_internal_error=d.last_internal_error)
 
     def snapshot(self, recording: str | None = None, recording_error: str | None = None) -> Snapshot:
         self._seq += 1

@@ -15,7 +15,7 @@ UNDATED_BEFORE = GPS_EPOCH
 # One two-digit-year rule for the whole code (NMEA ddmmyy dates): 00-68 -> 2000-2068, 69-99 ->
 # 1969-1999. It is the POSIX strptime %y rule, which the reference decoder pynmeagps follows, so
 # the fast decoder, the fallback and the plain-log reader agree on every date. Years 69-79 then
-# fall before GPS time and are flagged as not valid (livefix.state.dates), as they must be.
+# fall before GPS time and are flagged as not valid (livefix.dates), as they must be.
 YY_PIVOT = 68
 
 

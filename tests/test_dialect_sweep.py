@@ -17,9 +17,9 @@ from typing import Any
 import pytest
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.commands.simulate import write_file
 from livefix.pipeline import Pipeline
 from livefix.sim import Scenario, SimReceiver
-from livefix.sim.command import write_file
 from livefix.sim.dialects import DIALECTS
 from livefix.sources import open_source
 

@@ -39,7 +39,8 @@ Snapshot keys (all documented in README "Report JSON"); times ISO 8601 UTC, dist
             current {reported: {...}, computed: {...}}, disagreements
   signal:   cn0_mean_dbhz, top4_mean_dbhz, by_system {G: mean,...}, by_elevation [{from, to, mean}],
             curve {a, b} (expected C/N0 vs elevation), weak [{sat, elev, azim, cn0, expected}],
-            interference [{start, duration_s, drop_db}]
+            interference [{start, duration_s, drop_db}], weak_sectors [{az_from, az_to, el_from, el_to,
+            below_curve_db, n}], weak_sector_db
   sky:      obstructed [{az_from, az_to, below_el}], grid {az_step, el_step, tracked[[..]],
             untracked[[..]], cn0[[..]]}, clear_above_deg, visible_share
   trend:    t [...], h_err_m [...], cn0_mean [...], sats_used [...]   (decimated, <= 600 points)

@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, field
+
+from livefix.analysis.reflection import ReflectionConfig
 
 
 @dataclass(frozen=True, slots=True)
@@ -39,3 +41,10 @@ class AnalysisConfig:
     # convergence radius (horizontal, vertical) in metres set by a check profile; None: the radius of
     # the headline fix type from converge_h / converge_v
     converge_radius: tuple[float | None, float | None] = (None, None)
+    # GNSS-IR reflector heights (livefix.analysis.reflectors): window, search and acceptance thresholds
+    reflection: ReflectionConfig = field(default_factory=ReflectionConfig)
+    # weak sky sectors (livefix.analysis.signal): an azimuth x elevation cell whose mean C/N0 sits
+    # this far below the session's C/N0-vs-elevation curve is weak (multipath, foliage, a thin
+    # wall). Common practice: a reflecting wall costs several dB near it, while sky cells of an
+    # open site scatter by 1-2 dB about the curve; single satellites use signal.WEAK_DB (8 dB).
+    weak_sector_db: float = 5.0

@@ -21,9 +21,9 @@ they are counted and listed here, never dropped silently.
 
 from __future__ import annotations
 
-import math
 from typing import Any
 
+from livefix.analysis.streaming import LogHistogram
 from livefix.geodesy import dop as geometry_dop
 from livefix.state.epoch import Epoch
 from livefix.state.sky import sats_token
@@ -32,40 +32,6 @@ KEYS = ("gdop", "pdop", "hdop", "vdop", "tdop")
 REL_TOL = 0.20
 ABS_TOL = 0.3
 MAX_UNKNOWN_IDS = 64  # distinct unknown satellite labels listed in the snapshot
-
-
-class LogHistogram:
-    """Streaming median/quantiles of positive values with ~0.5 % resolution and bounded bins."""
-
-    STEP = 0.005  # bin width in natural-log units
-
-    def __init__(self) -> None:
-        self.bins: dict[int, int] = {}
-        self.n = 0
-
-    def add(self, x: float | None) -> None:
-        b = self.bin(x)
-        if b is not None:
-            self.add_bin(b)
-
-    def bin(self, x: float | None) -> int | None:
-        if x is None or not x > 0 or not math.isfinite(x):
-            return None
-        return round(math.log(x) / self.STEP)
-
-    def add_bin(self, b: int) -> None:
-        self.bins[b] = self.bins.get(b, 0) + 1
-        self.n += 1
-
-    def quantile(self, p: float) -> float | None:
-        if not self.n:
-            return None
-        target, acc = p * self.n, 0
-        for b in sorted(self.bins):
-            acc += self.bins[b]
-            if acc >= target:
-                return round(math.exp(b * self.STEP), 3)
-        return None  # unreachable
 
 
 def used_geometry(ep: Epoch) -> tuple[tuple[float, float, str], ...]:
@@ -204,8 +170,7 @@ class DopStats:
     @staticmethod
     def _add_run(bins: list[tuple[LogHistogram, int]], run: int) -> None:
         for h, b in bins:
-            h.bins[b] = h.bins.get(b, 0) + run
-            h.n += run
+            h.add_bin(b, run)
 
     def _flush_rep(self) -> None:
         if self._rep_run:
@@ -225,10 +190,14 @@ class DopStats:
             return {k: (None if d is None or d.get(k) is None else round(d[k], 3)) for k in keys}
 
         single = self.clock_model == "single"
-        per_system = {k: h.quantile(0.5) for k, h in self.hist_calc.items()}
-        one_clock = {k: h.quantile(0.5) for k, h in self.hist_single.items()}
+        def median(h: LogHistogram) -> float | None:  # 3 decimals: a DOP is given to 0.1 or 0.01
+            q = h.quantile(0.5)
+            return None if q is None else round(q, 3)
+
+        per_system = {k: median(h) for k, h in self.hist_calc.items()}
+        one_clock = {k: median(h) for k, h in self.hist_single.items()}
         return {
-            "reported": {k: h.quantile(0.5) for k, h in self.hist_rep.items()},
+            "reported": {k: median(h) for k, h in self.hist_rep.items()},
             "computed": one_clock if single else per_system,
             "clock_model": self.clock_model,
             "clock_model_votes": dict(self.votes),

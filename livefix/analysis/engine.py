@@ -18,9 +18,11 @@ from livefix.analysis.events import EventLog, jsonable
 from livefix.analysis.fixes import FixStats
 from livefix.analysis.integrity import StreamIntegrity
 from livefix.analysis.position import PositionStats
+from livefix.analysis.reflectors import ReflectionStats
 from livefix.analysis.signal import SignalStats
 from livefix.analysis.sky import SkyMap
 from livefix.analysis.trend import Trend
+from livefix.faults import log_internal
 from livefix.state.epoch import Epoch, Event
 from livefix.timefmt import iso
 
@@ -39,9 +41,10 @@ class Analyzer:
         self.signal = SignalStats(cfg, emit)
         self.sky = SkyMap(cfg)
         self.trend = Trend()
+        self.reflection = ReflectionStats(cfg.reflection)
         self._epoch_stages: tuple[Callable[[Epoch], None], ...] = (
             self.integrity.on_epoch, self.fix.on_epoch, self.position.on_epoch, self.dop.on_epoch,
-            self.signal.on_epoch)  # then sky (needs signal.active) and trend, in on_epoch
+            self.signal.on_epoch, self.reflection.on_epoch)  # then sky (needs signal.active) and trend, in on_epoch
         self._event_stages: tuple[Callable[[Event], None], ...] = (
             self.integrity.on_event, self.fix.on_event, self.position.on_event)
         # per-chunk and per-refused-line calls go straight to their one stage (hot, unguarded as
@@ -97,7 +100,9 @@ class Analyzer:
 
     def _fail(self, fn: Callable[..., Any], exc: Exception) -> None:
         self.internal_errors += 1
-        self.last_error = f"{getattr(fn, '__qualname__', 'stage')}: {type(exc).__name__}: {exc}"
+        where = getattr(fn, "__qualname__", "stage")
+        self.last_error = f"{where}: {type(exc).__name__}: {exc}"
+        log_internal(self.internal_errors, where, exc)
 
     # -- reference --------------------------------------------------------------------------
     def set_reference(self, lat: float, lon: float, h: float) -> None:
@@ -128,10 +133,12 @@ class Analyzer:
             "signal": self.signal.snapshot(),
             "sky": self.sky.snapshot(),
             "trend": self.trend.snapshot(),
+            "reflection": self.reflection.snapshot(),
             "events": self._log.to_json(),
             "events_dropped": self._log.dropped,
-            "internal_errors": self.internal_errors,
-            "last_error": self.last_error,
+            # livefix's own errors, the analysis' and the decoder's, apart from bad input
+            "internal_errors": self.internal_errors + int(getattr(counters, "internal_errors", 0)),
+            "last_error": self.last_error or getattr(counters, "last_internal_error", None),
         }
         return jsonable(out)
 
@@ -139,7 +146,7 @@ class Analyzer:
         """Start the statistics afresh (the user reference, if any, is kept)."""
         ref = self.position.ref if self.position.ref_source == "user" else None
         for part in (self.integrity, self.fix, self.position, self.dop, self.signal, self.sky, self.trend,
-                     self._log):
+                     self.reflection, self._log):
             part.reset()
         self.internal_errors = 0
         self.last_error = None

@@ -39,6 +39,10 @@ CURVE_MIN_N = 100
 MAX_LIST = 100
 MAX_SATS = 128  # per-satellite list in the snapshot (current epoch)
 EVAL_S = 0.95  # session sums and interference use epochs at least this far apart (stream time)
+# weak sectors: cells of SECTOR_AZ x SECTOR_EL degrees (the obstruction map's scale, coarser so a
+# cell gathers samples), judged once they hold SECTOR_MIN_N samples (a satellite-minute at the
+# one-per-second sampling above)
+SECTOR_AZ, SECTOR_EL, SECTOR_MIN_N = 30, 15, 60
 _SIN = [math.sin(math.radians(e)) for e in range(91)]
 
 
@@ -77,6 +81,9 @@ class SignalStats:
         self._if_t = -math.inf
         self._last_sats: tuple | None = None
         self._last_tok: object | None = None
+        # per (az cell, el cell): [n, Σ sin el, Σ C/N0]; the residual to the linear curve is exact
+        # from these sums whenever the curve is read (bounded: 12 x 6 cells)
+        self.cells: dict[tuple[int, int], list[float]] = {}
 
     # -- per epoch --------------------------------------------------------------------------
     def on_epoch(self, ep: Epoch) -> None:
@@ -100,7 +107,7 @@ class SignalStats:
 
     def _accumulate(self) -> None:
         mask = self.config.elev_mask_deg
-        cs, bands, by_sys, sin = self.cs, self.bands, self.by_sys, _SIN
+        cs, bands, by_sys, sin, cells = self.cs, self.bands, self.by_sys, _SIN, self.cells
         n0, sx, sxx, sy, sxy = cs  # running sums in locals, the same additions in the same order
         try:  # finally: a bad satellite leaves the sums as far as they got, as in-place adds did
             for s in self.cur:
@@ -122,6 +129,15 @@ class SignalStats:
                         sxx += x * x
                         sy += c
                         sxy += x * c
+                        az = s.azim
+                        if az is not None:
+                            key = (int(az % 360) // SECTOR_AZ, min(el, 89) // SECTOR_EL)
+                            cell = cells.get(key)
+                            if cell is None:
+                                cell = cells[key] = [0, 0.0, 0.0]
+                            cell[0] += 1
+                            cell[1] += x
+                            cell[2] += c
         finally:
             cs[:] = (n0, sx, sxx, sy, sxy)
         if self.cur:
@@ -220,6 +236,35 @@ class SignalStats:
         b = (n * sxy - sx * sy) / var
         return ((sy - b * sx) / n, b)
 
+    def weak_sectors(self, cv: tuple[float, float] | None) -> list[dict[str, Any]]:
+        """Sky cells whose mean C/N0 is weak_sector_db or more below the session curve at their
+        own elevations: mean residual = (Σc − a·n − b·Σ sin el) / n, exact from the cell sums.
+        Cells next to each other in azimuth within one elevation band are joined into one sector."""
+        if cv is None:
+            return []
+        a, b = cv
+        lim = self.config.weak_sector_db
+        weak: dict[tuple[int, int], tuple[float, int]] = {}
+        for key, (n, sx, sc) in self.cells.items():
+            if n >= SECTOR_MIN_N:
+                below = (a * n + b * sx - sc) / n
+                if below >= lim:
+                    weak[key] = (below, int(n))
+        out = []
+        n_az = 360 // SECTOR_AZ
+        for j in sorted({k[1] for k in weak}):
+            cols = {i for i, jj in weak if jj == j}
+            starts = [i for i in sorted(cols) if (i - 1) % n_az not in cols] or [0]  # [0]: all round
+            for i in starts:
+                run = [i]
+                while (run[-1] + 1) % n_az in cols and len(run) < len(cols):
+                    run.append((run[-1] + 1) % n_az)
+                out.append({"az_from": run[0] * SECTOR_AZ, "az_to": (run[-1] + 1) * SECTOR_AZ % 360,
+                            "el_from": j * SECTOR_EL, "el_to": (j + 1) * SECTOR_EL,
+                            "below_curve_db": round(max(weak[(k, j)][0] for k in run), 1),
+                            "n": sum(weak[(k, j)][1] for k in run)})
+        return out
+
     def snapshot(self) -> dict[str, Any]:
         cv = self.curve()
         weak = []
@@ -254,6 +299,8 @@ class SignalStats:
             "curve": None if cv is None else {"a": round(cv[0], 3), "b": round(cv[1], 3),
                                               "n": int(self.cs[0])},
             "weak": weak[:32],
+            "weak_sectors": self.weak_sectors(cv),
+            "weak_sector_db": self.config.weak_sector_db,
             "interference": inter,
             "interference_count": self.events_total + (self.active is not None),
             "interference_active": self.active is not None,

@@ -8,11 +8,11 @@ from __future__ import annotations
 
 import math
 from collections.abc import Iterable, Sequence
-from math import isfinite, log10
+from math import isfinite, log
 
 import numpy as np
 
-from livefix.state.dates import jump_limit
+from livefix.dates import jump_limit
 from livefix.state.epoch import Epoch
 
 
@@ -50,7 +50,7 @@ class Timeline:
     Receiver UTC is preferred; a step is taken from UTC when both epochs carry it and it moves
     forward by less than a day, otherwise from the host monotonic stamps. So a receiver that loses
     its clock (UTC jumps back, or goes missing) does not fold the timeline; `reset` reports that
-    UTC went back by more than a forward jump would need (livefix.state.dates.jump_limit, 10 s),
+    UTC went back by more than a forward jump would need (livefix.dates.jump_limit, 10 s),
     which together with a lost fix means a receiver restart. A step back of about a second (seen when
     a receiver changes talker as a constellation joins) is not a restart.
     A UTC step is taken from the session time of the last timed epoch: epochs without a time in
@@ -182,48 +182,60 @@ class Moments:
 
 
 class LogHistogram:
-    """Streaming quantiles of a positive quantity from fixed log-spaced bins.
+    """Streaming quantiles of a positive quantity (a radius, a DOP) from log-spaced bins.
 
-    Bins span 0.1 mm .. 100 km with 64 bins per decade (relative resolution about 3.7 %), so a
-    percentile is good to within a bin whatever the session length; memory is fixed.
+    Bin k holds the values whose natural log rounds to k * STEP: bins 0.5 % wide, so a quantile is
+    good to about ±0.25 % whatever the session length. The bins are sparse, so memory grows with
+    the logarithm of the range of values seen (about 460 bins a decade), never with their count.
+    `add` counts an exact 0 apart (a position that repeats the mean to the last digit has radius
+    0, and leaving it out would bias every quantile up); negative and non-finite values are not
+    counted, and `bin` leaves out 0 too (a DOP of 0 is a missing value).
     """
 
-    LO, DECADES, PER_DECADE = 1e-4, 9, 64
+    STEP = 0.005  # bin width in natural-log units
 
     def __init__(self) -> None:
-        self._c = [0] * (self.DECADES * self.PER_DECADE + 2)  # a list: += 1 on numpy is slow
+        self.bins: dict[int, int] = {}
+        self.zeros = 0
         self.n = 0
 
-    @property
-    def counts(self) -> np.ndarray:
-        return np.array(self._c, dtype=np.int64)
+    def bin(self, x: float | None) -> int | None:
+        """The bin of x, None for a value that is not counted (callers may then add runs by bin)."""
+        if x is None or not x > 0 or not isfinite(x):
+            return None
+        return round(log(x) / _LH_STEP)
 
-    def add(self, r: float) -> None:
-        if not isfinite(r):
+    def add_bin(self, b: int, count: int = 1) -> None:
+        self.bins[b] = self.bins.get(b, 0) + count
+        self.n += count
+
+    def add(self, x: float | None) -> None:
+        try:  # the common case in one go; the rare values fail inside log() or round()
+            b = round(log(x) / _LH_STEP)  # type: ignore[arg-type]
+        except (ValueError, TypeError, OverflowError):  # 0, negative, NaN, inf, None
+            if x == 0:
+                self.zeros += 1
+                self.n += 1
             return
-        c = self._c
-        if r <= _LH_LO:
-            k = 0
-        else:
-            k = 1 + int(log10(r / _LH_LO) * _LH_PD)
-            top = len(c) - 1
-            if k > top:  # min(k, top)
-                k = top
-        c[k] += 1
+        bins = self.bins
+        bins[b] = bins.get(b, 0) + 1
         self.n += 1
 
     def quantile(self, p: float) -> float | None:
-        if self.n == 0:
+        """The p-quantile (0..1) as the centre of its bin; None before any value."""
+        if not self.n:
             return None
-        c = np.cumsum(self.counts)
-        k = int(np.searchsorted(c, p * self.n, side="left"))
-        if k == 0:
-            return self.LO
-        # geometric centre of bin k: [LO*10^((k-1)/PD), LO*10^(k/PD))
-        return self.LO * 10 ** ((k - 0.5) / self.PER_DECADE)
+        target, acc = p * self.n, self.zeros
+        if acc and acc >= target:
+            return 0.0
+        for b in sorted(self.bins):
+            acc += self.bins[b]
+            if acc >= target:
+                return math.exp(b * _LH_STEP)
+        return math.exp(max(self.bins) * _LH_STEP) if self.bins else 0.0  # p > 1: the top bin
 
 
-_LH_LO, _LH_PD = LogHistogram.LO, LogHistogram.PER_DECADE  # module names: cheaper in add()
+_LH_STEP = LogHistogram.STEP  # a module name: cheaper in add()
 
 
 class PairHistory:

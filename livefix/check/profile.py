@@ -2,11 +2,8 @@
 
 Grammar of one threshold (a `[[threshold]]` table):
   name        short id, unique in the profile (JUnit test case name)
-  metric      dotted path into the snapshot, e.g. "sky.clear_above_deg", "fix.longest_outage_s".
-              A segment may carry a selector: `name[3]` (list index), `name[key OP value]` keeps the
-              list entries whose `key` compares true (OP one of <= < >= > == !=; value a number or
-              text), e.g. "signal.by_elevation[from>=30].mean". Later segments map over the list.
-              "derived.*" holds figures computed here from the snapshot (see DERIVED).
+  metric      dotted path into the snapshot, e.g. "sky.clear_above_deg", "fix.longest_outage_s",
+              with optional list selectors; the path language is livefix.analysis.paths.
   op          <=  <  >=  >  ==
   limit       number
   fix         optional fix type ("rtk_fixed", "single", ...): take the figure for epochs of that fix
@@ -19,33 +16,21 @@ A missing figure fails with the note "not measured": a check that could not look
 
 from __future__ import annotations
 
-import math
-import operator
 import re
-import statistics
 import tomllib
-from collections.abc import Callable
 from dataclasses import dataclass
 from importlib import resources
 from pathlib import Path
 from typing import Any
 
+from livefix.analysis.paths import OPS, REDUCERS, Missing, figure, is_num, resolve, valid_path
 from livefix.check.interval import INTERVALS, STATIC_PREFIXES, judge
+from livefix.checksum import with_checksum
 
-OPS: dict[str, Callable[[Any, Any], bool]] = {
-    "<=": operator.le, "<": operator.lt, ">=": operator.ge, ">": operator.gt, "==": operator.eq,
-}
-_FILTER_OPS: dict[str, Callable[[Any, Any], bool]] = {**OPS, "!=": operator.ne}
-REDUCERS: dict[str, Callable[[list[float]], float]] = {
-    "min": min, "max": max, "mean": statistics.fmean, "sum": math.fsum,
-    "count": lambda v: float(len(v)), "first": lambda v: v[0], "last": lambda v: v[-1],
-}
 # fix qualifier: how the metric path is narrowed to one fix type
 FIX_SCOPES: tuple[tuple[str, str], ...] = (("position.", "position.by_fix.{fix}."),
                                            ("fix.availability", "fix.availability.{fix}"))
 FIX_KINDS = ("cold", "warm", "hot")
-_SEGMENT = re.compile(r"([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?(?:\.|$)")
-_FILTER = re.compile(r"^\s*([A-Za-z_][A-Za-z0-9_]*)\s*(<=|>=|==|!=|<|>)\s*(.+?)\s*$")
 _THRESHOLD_KEYS = {"name", "metric", "op", "limit", "fix", "reduce", "unit", "description", "source"}
 _TTFF_KEYS = {"n", "kind", "send", "send_hex", "command", "timeout_s", "settle_s"}
 _PROFILE_KEYS = {"name", "title", "description", "duration", "source", "converge_h_m", "converge_v_m"}
@@ -210,7 +195,7 @@ def _threshold(t: Any, where: str) -> Threshold:
         if key not in t:
             raise ProfileError(f"{where}: missing key {key!r}")
     where = f"{where} ({t['name']!r})"
-    if not isinstance(t["metric"], str) or not _valid_path(t["metric"]):
+    if not isinstance(t["metric"], str) or not valid_path(t["metric"]):
         raise ProfileError(f"{where}: key 'metric' is not a dotted path: {t['metric']!r}")
     if t["op"] not in OPS:
         raise ProfileError(f"{where}: key 'op' must be one of {' '.join(OPS)}, got {t['op']!r}")
@@ -267,146 +252,22 @@ def restart_sentence(text: str) -> bytes:
     """Text to send; a '$...' sentence without '*hh' gets its NMEA checksum, and CR LF is ensured."""
     text = text.rstrip("\r\n")
     if text.startswith("$") and "*" not in text:
-        cs = 0
-        for ch in text[1:].encode("ascii", errors="replace"):
-            cs ^= ch
-        text = f"{text}*{cs:02X}"
+        text = with_checksum(text[1:])
     return text.encode("utf-8") + b"\r\n"
 
 
-def _valid_path(path: str) -> bool:
-    pos = 0
-    for m in _SEGMENT.finditer(path):
-        if m.start() != pos:
-            return False
-        pos = m.end()
-    return pos == len(path) and not path.endswith(".")
-
-
 # -- evaluating ------------------------------------------------------------------------------------
-class _Missing(Exception):
-    pass
-
-
-def derived(analysis: dict[str, Any]) -> dict[str, Any]:
-    """Figures the profiles need that are simple functions of the snapshot."""
-    out: dict[str, Any] = {}
-    fix = analysis.get("fix") or {}
-    avail = fix.get("availability")
-    if isinstance(avail, dict) and avail:
-        out["fix_share"] = math.fsum(v for k, v in avail.items() if k != "none" and _is_num(v))
-        for key, ttff_key, wanted in _AFTER_FIRST:
-            # on time, from the fix statistics (which also count a session that began with a fix,
-            # whose TTFF is not observed); else rebuilt from the first start's TTFF
-            after = fix[key] if _is_num(fix.get(key)) else _share_after(fix, avail, ttff_key, wanted)
-            if after is not None:
-                out[key] = after
-    stream = analysis.get("stream") or {}
-    if _is_num(stream.get("lines")) and _is_num(stream.get("bad_checksum")):
-        out["checksum_error_share"] = stream["bad_checksum"] / max(stream["lines"], 1)
-    drift = (analysis.get("position") or {}).get("drift_mm_per_h") or {}
-    if _is_num(drift.get("e")) and _is_num(drift.get("n")):
-        out["drift_h_mm_per_h"] = math.hypot(drift["e"], drift["n"])
-    return out
-
-
-_AFTER_FIRST: tuple[tuple[str, str, Callable[[str], bool]], ...] = (
-    ("fix_share_after_first_fix", "ttff_s", lambda k: k != "none"),
-    ("rtk_fixed_share_after_first", "ttff_rtk_fixed_s", lambda k: k == "rtk_fixed"))
-
-
-def _share_after(fix: dict[str, Any], avail: dict[str, Any], ttff_key: str, wanted: Callable[[str], bool]) -> float | None:
-    """Share of epochs of the wanted fix types once the first such fix came (the acquisition at the
-    start is TTFF's business, not availability's). Epoch counts are rebuilt from shares."""
-    starts = fix.get("starts") or []
-    ttff = (starts[0] if starts else fix).get(ttff_key)
-    total, interval = fix.get("epochs"), fix.get("interval_s")
-    if not (_is_num(ttff) and _is_num(total) and _is_num(interval)) or interval <= 0 or total <= 0:
-        return None
-    before = min(round(ttff / interval), total)
-    good = round(total * math.fsum(v for k, v in avail.items() if wanted(k) and _is_num(v)))
-    rest = total - before
-    return None if rest <= 0 else min(1.0, good / rest)
-
-
-DERIVED = ("fix_share", "fix_share_after_first_fix", "rtk_fixed_share_after_first", "checksum_error_share",
-           "drift_h_mm_per_h")
-
-
-def _is_num(v: Any) -> bool:
-    return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
-
-
-def _scalar(text: str) -> Any:
-    try:
-        return float(text)
-    except ValueError:
-        return text.strip("'\"")
-
-
-def resolve(analysis: dict[str, Any], path: str) -> Any:
-    """The value at a dotted path (with selectors); raises _Missing when absent."""
-    value: Any = {**analysis, "derived": derived(analysis)}
-    many = False
-    for m in _SEGMENT.finditer(path):
-        key, sel = m.group(1), m.group(2)
-        if many:
-            value = [v[key] for v in value if isinstance(v, dict) and key in v]
-        elif isinstance(value, dict) and key in value:
-            value = value[key]
-        else:
-            raise _Missing(key)
-        if sel is None:
-            continue
-        if not isinstance(value, list):
-            raise _Missing(f"{key} is not a list")
-        fm = _FILTER.match(sel)
-        if fm:
-            fkey, fop, fval = fm.group(1), _FILTER_OPS[fm.group(2)], _scalar(fm.group(3))
-            value = [v for v in value if isinstance(v, dict) and _cmp(fop, v.get(fkey), fval)]
-            many = True
-        else:
-            try:
-                value = value[int(sel)]
-            except (ValueError, IndexError) as exc:
-                raise _Missing(f"{key}[{sel}]") from exc
-    if value is None:
-        raise _Missing(path)
-    return value
-
-
-def _cmp(op: Callable[[Any, Any], bool], a: Any, b: Any) -> bool:
-    try:
-        return bool(op(a, b)) if a is not None else False
-    except TypeError:
-        return bool(op(str(a), str(b)))
-
-
 def measure(analysis: dict[str, Any], t: Threshold) -> tuple[float | None, str]:
     """(measured value, note); None with the reason when there is nothing to compare."""
-    try:
-        value = resolve(analysis, t.path)
-    except _Missing:
-        why = (analysis.get("fix") or {}).get("ttff_note") if t.path.startswith("fix.ttff") else None
-        return None, f"not measured ({why})" if isinstance(why, str) else "not measured"
-    if isinstance(value, list | tuple):
-        values = [float(v) for v in value if _is_num(v)] if t.reduce not in (None, "count") else list(value)
-        if not values and t.reduce not in (None, "count"):
-            return None, "not measured (no entries)"
-        return float(REDUCERS[t.reduce or "count"](values)), ""
-    if isinstance(value, bool):
-        return float(value), ""
-    if not _is_num(value):
-        return None, f"not a number ({type(value).__name__})"
-    return float(value), ""
+    return figure(analysis, t.path, t.reduce)
 
 
 def _interval(analysis: dict[str, Any], path: str) -> tuple[float, float] | None:
     try:
         v = resolve(analysis, INTERVALS[path])
-    except (_Missing, KeyError):
+    except (Missing, KeyError):
         return None
-    if isinstance(v, list) and len(v) == 2 and all(_is_num(x) for x in v):
+    if isinstance(v, list) and len(v) == 2 and all(is_num(x) for x in v):
         return float(v[0]), float(v[1])
     return None
 
@@ -422,7 +283,7 @@ def evaluate(profile: Profile, analysis: dict[str, Any]) -> list[Result]:
         ci = _interval(analysis, t.path) if measured is not None else None
         passed, inconclusive = False, False
         if measured is not None:
-            passed, inconclusive, note = judge(OPS[t.op], t.limit, measured, ci, span if _is_num(span) else None)
+            passed, inconclusive, note = judge(OPS[t.op], t.limit, measured, ci, span if is_num(span) else None)
         results.append(Result(name=t.name, metric=t.metric, measured=measured, limit=t.limit, op=t.op,
                               passed=passed, source=t.source, note=note, description=t.description,
                               unit=t.unit, fix=t.fix, inconclusive=inconclusive, interval=ci))

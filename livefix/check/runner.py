@@ -179,7 +179,7 @@ class CheckRun:
                                  notes=self.o.site + ("; " + self.o.notes if self.o.notes else ""), publish_hz=5.0)
             if prof.ttff is not None:
                 rx.cycler = TTFFCycler(prof.ttff, rx.session.write, mark=rx.session.add_marker)
-        from livefix.sources.probe import no_nmea_watch
+        from livefix.probe import no_nmea_watch
 
         watches = {rx.name: None if self.o.wait else no_nmea_watch(rx.source) for rx in self.rxs}
         for rx in self.rxs:

@@ -23,6 +23,7 @@ BAD_CHECKSUM = "bad_checksum"  # checksum present but wrong
 NO_CHECKSUM = "no_checksum"  # no '*hh' (truncated or checksum-less); counted as malformed
 MALFORMED = "malformed"  # wrong field count/types, non-ASCII, etc.
 UNKNOWN = "unknown"  # a well-formed sentence of a type neither path knows
+INTERNAL = "internal"  # livefix failed on the line (a bug, counted in internal_errors, not as bad input)
 
 
 @dataclass(frozen=True, slots=True)
@@ -54,16 +55,10 @@ class DecodeCounters:
     unknown: int = 0
     proprietary: int = 0
     rejected_by_type: dict[str, int] = field(default_factory=dict)  # msg_id -> rejected count
+    internal_errors: int = 0  # livefix's own bugs met while decoding (livefix.faults), not bad input
+    last_internal_error: str | None = None
 
     def copy(self) -> DecodeCounters:
         return DecodeCounters(self.decoded, self.fast, dict(self.by_type), dict(self.by_talker_type),
                               self.bad_checksum, self.malformed, self.unknown, self.proprietary,
-                              dict(self.rejected_by_type))
-
-
-def __getattr__(name: str) -> Any:  # lazy: importing the package must stay cheap
-    if name == "Decoder":
-        from livefix.decode.decoder import Decoder
-
-        return Decoder
-    raise AttributeError(name)
+                              dict(self.rejected_by_type), self.internal_errors, self.last_internal_error)

@@ -14,8 +14,11 @@ from pynmeagps import NMEAReader
 from pynmeagps.nmeatypes_core import NMEA_MSGIDS_PROP, NMEA_PREFIX_PROP, NMEA_TALKERS, VALCKSUM
 from pynmeagps.nmeatypes_get import NMEA_PAYLOADS_GET
 
+from livefix.checksum import XOR16 as _XOR16
+from livefix.checksum import xor_checksum
 from livefix.decode import (
     BAD_CHECKSUM,
+    INTERNAL,
     MALFORMED,
     NO_CHECKSUM,
     UNKNOWN,
@@ -24,31 +27,12 @@ from livefix.decode import (
     Rejected,
 )
 from livefix.decode.fast import FAST_DECODERS, FAST_TYPES, decode_fields
+from livefix.faults import log_internal
 
 _HEX = frozenset("0123456789abcdefABCDEF")
 _TALKERS = frozenset(t for t in NMEA_TALKERS if len(t) == 2)
 _KNOWN = frozenset(NMEA_PAYLOADS_GET)
 _PROP_KNOWN = frozenset(NMEA_MSGIDS_PROP) | frozenset(NMEA_PREFIX_PROP)
-_M512, _M256, _M128, _M64, _M32 = ((1 << s) - 1 for s in (512, 256, 128, 64, 32))
-_XOR16 = bytes((i >> 8) ^ (i & 255) for i in range(65536))  # last fold as a table lookup
-
-
-def xor_checksum(body: bytes) -> int:
-    """XOR of all bytes, folding the bytes as one big int (a few int ops instead of a byte loop)."""
-    if len(body) > 128:
-        x = 0
-        for i in range(0, len(body), 128):
-            x ^= int.from_bytes(body[i : i + 128], "little")
-    else:
-        x = int.from_bytes(body, "little")
-    x = (x >> 512) ^ (x & _M512)
-    x = (x >> 256) ^ (x & _M256)
-    x = (x >> 128) ^ (x & _M128)
-    x = (x >> 64) ^ (x & _M64)
-    x = (x >> 32) ^ (x & _M32)
-    return _XOR16[(x >> 16) ^ (x & 65535)]
-
-
 def _public(msg: Any) -> dict[str, Any]:
     return {k: v for k, v in vars(msg).items() if not k.startswith("_")}
 
@@ -193,8 +177,17 @@ class Decoder:
             if lines is not None:
                 lines[line] = (hdr, d, gsv)
             return d
-        except Exception as err:  # last line of defence: count it, keep going
-            return self._no(MALFORMED, "?", bytes(line), f"internal: {type(err).__name__}")
+        except Exception as err:  # last line of defence: livefix's own bug, not bad input
+            return self._internal(line, err)
+
+    def _internal(self, line: bytes, err: Exception) -> Rejected:
+        """Count and log (with traceback) an exception of the decoder itself; the line is refused
+        with reason INTERNAL and does not count as malformed input."""
+        c = self._counters
+        c.internal_errors += 1
+        c.last_internal_error = f"Decoder.decode: {type(err).__name__}: {err}"
+        log_internal(c.internal_errors, "Decoder.decode", err)
+        return Rejected(INTERNAL, "?", bytes(line), f"internal: {type(err).__name__}")
 
     def _decode(self, line: bytes) -> Decoded | Rejected:
         """The general path: every check spelled out, each refusal with its reason."""

@@ -7,7 +7,7 @@ import re
 import zlib
 from pathlib import Path
 
-from livefix.sources.base import Chunk, Item, LinkEvent, Marker
+from livefix.items import Chunk, Item, LinkEvent, Marker
 
 FORMAT_NAME = "livefix-recording"
 VERSION = 1

@@ -11,7 +11,7 @@ from __future__ import annotations
 import datetime as _dt
 from typing import NamedTuple
 
-from livefix.decode.decoder import xor_checksum
+from livefix.checksum import xor_checksum
 from livefix.timefmt import year_from_yy
 
 # Sentences whose time field is the time of a position fix (NMEA 0183), and that field's index.

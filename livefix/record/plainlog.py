@@ -11,7 +11,7 @@ sharing a stamp go out as one chunk. The rules, each because a real receiver nee
   period is never mistaken for silence. Bursts before the first time are re-paced once the rate is
   learned (LEARN_STEPS), so a 10 Hz receiver's no-fix start is not stretched tenfold.
 * A time that jumps back or ahead by more than the jump limit moves the clock only when the following epochs run on from
-  it (livefix.state.dates); otherwise it is a time fault (counted in `time_faults`) and its lines
+  it (livefix.dates); otherwise it is a time fault (counted in `time_faults`) and its lines
   keep the current stamp. A confirmed leap ahead between trusted times with no line in between is a
   hole in the log: one STALLED ... STREAMING pair says so. Any other confirmed jump (the receiver
   setting or resetting its clock, a default date on either side) costs one nominal interval.
@@ -28,9 +28,9 @@ from collections import deque
 from collections.abc import Iterator
 from statistics import median
 
+from livefix.dates import CONFIRM_EPOCHS, date_problem, jump_limit
+from livefix.items import Chunk, Item, Link, LinkEvent
 from livefix.record.linetime import LineTime, line_time, pieces
-from livefix.sources.base import Chunk, Item, Link, LinkEvent
-from livefix.state.dates import CONFIRM_EPOCHS, date_problem, jump_limit
 
 CHUNK_MAX = 65536
 HOLD_MAX = 1 << 20

@@ -12,9 +12,9 @@ import zlib
 from collections.abc import Iterator
 from pathlib import Path
 
+from livefix.items import Item
 from livefix.record import fmt
 from livefix.record.plainlog import iter_plain
-from livefix.sources.base import Item
 
 READ_BLOCK = 65536
 MAX_PAYLOAD = 64 << 20  # a larger length field is damage, not data

@@ -14,8 +14,8 @@ import zlib
 from pathlib import Path
 
 from livefix import __version__
+from livefix.items import Item, Marker
 from livefix.record import fmt
-from livefix.sources.base import Item, Marker
 from livefix.timefmt import iso
 
 FLUSH_S = 0.5

@@ -9,10 +9,11 @@ import json
 import math
 import time
 from dataclasses import dataclass, field
-from pathlib import Path
 from typing import Any
 
 from livefix import __version__
+from livefix.analysis import paths
+from livefix.faults import report_line
 from livefix.timefmt import iso
 
 FORMAT = "livefix-report/1"
@@ -94,10 +95,7 @@ class ReceiverRun:
 
 def figure(analysis: dict[str, Any], path: str) -> float | None:
     """A key figure by dotted path (lists count), None when not measured."""
-    from livefix.check.profile import Threshold, measure
-
-    value, _ = measure(analysis, Threshold(name="k", metric=path, op="<=", limit=0.0))
-    return value
+    return paths.figure(analysis, path)[0]
 
 
 def build_report(runs: list[ReceiverRun], *, profile: Any = None, site: str = "", notes: str = "",
@@ -175,36 +173,6 @@ def to_json(report: Any, indent: int | None = 1) -> str:
     return json.dumps(_clean(report), indent=indent, ensure_ascii=True, default=str)
 
 
-def write_all(report: dict[str, Any], out_dir: str | Path, formats: tuple[str, ...] = ("json", "md", "html"),
-              junit: bool = False) -> list[Path]:
-    """Write the chosen documents into out_dir; returns the paths written."""
-    out = Path(out_dir)
-    out.mkdir(parents=True, exist_ok=True)
-    written = []
-    if "json" in formats:
-        written.append(_write(out / "report.json", to_json(report) + "\n"))
-    if "md" in formats:
-        from livefix.report.markdown import render_markdown
-
-        written.append(_write(out / "report.md", render_markdown(report)))
-    if "html" in formats:
-        from livefix.report.html import render_html
-
-        written.append(_write(out / "report.html", render_html(report)))
-    if junit:
-        from livefix.report.junit import render_junit
-
-        written.append(_write(out / "junit.xml", render_junit(report)))
-    return written
-
-
-def _write(path: Path, text: str) -> Path:
-    tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text(text, encoding="utf-8")
-    tmp.replace(path)
-    return path
-
-
 def fmt_value(value: float | None, digits: int = 3, unit: str = "") -> str:
     """A number for people: None -> 'not measured', no trailing zeros, trailing unit when given."""
     if value is None:
@@ -229,6 +197,11 @@ def data_span(report: dict[str, Any]) -> str:
     return "; ".join(parts) or "-"
 
 
+def internal_errors(report: dict[str, Any]) -> int:
+    """livefix's own errors over every receiver of the run (livefix.faults); zero when all is well."""
+    return sum(int((r.get("analysis") or {}).get("internal_errors") or 0) for r in report.get("receivers", []))
+
+
 def meta_facts(report: dict[str, Any]) -> list[tuple[str, str]]:
     """The run's facts as (label, plain text) rows, shared by the Markdown and HTML documents."""
     meta = report["meta"]
@@ -239,7 +212,8 @@ def meta_facts(report: dict[str, Any]) -> list[tuple[str, str]]:
              ("Run time", fmt_value(meta.get("duration_s"), 0, "s")),
              ("Data", data_span(report)),
              ("Complete", "yes" if meta.get("complete") else f"no: {meta.get('incomplete_reason') or 'stopped'}"),
-             ("livefix version", meta.get("livefix_version", ""))]
+             ("livefix version", meta.get("livefix_version", "")),
+             ("livefix internal errors", report_line(internal_errors(report)))]
     if meta.get("ref"):
         r = meta["ref"]
         facts.append(("Reference point", f"{r['lat']:.9f}, {r['lon']:.9f}, {r['h']:.3f} m (ellipsoidal)"))

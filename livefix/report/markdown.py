@@ -7,6 +7,7 @@ from typing import Any
 
 from livefix.report.document import fmt_value, meta_facts, position_facts
 from livefix.report.escape import md_text
+from livefix.report.reflection_md import reflection_section
 
 VERDICT_WORDS = {"pass": "PASS", "fail": "FAIL", "incomplete": "INCOMPLETE (run ended early)",
                  "inconclusive": "INCONCLUSIVE (run longer)", None: "no verdict"}
@@ -94,6 +95,7 @@ def receiver_section(rx: dict[str, Any]) -> list[str]:
         out += ["### Obstructed sectors", ""]
         out += [f"- {md_text(sector_text(s))}" for s in sky["obstructed"]]
         out.append("")
+    out += reflection_section((rx.get("analysis") or {}).get("reflection"))
     return out
 
 

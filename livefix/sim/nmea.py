@@ -9,6 +9,8 @@ from __future__ import annotations
 import datetime as _dt
 from collections.abc import Iterable, Sequence
 
+from livefix.checksum import checksum_hex
+
 # RINEX letter -> GSV talker and NMEA 4.10+ system id (REFERENCES.md "NMEA 0183").
 TALKER = {"G": "GP", "R": "GL", "E": "GA", "C": "GB"}
 SYSTEM_ID = {"G": 1, "R": 2, "E": 3, "C": 4}
@@ -19,12 +21,7 @@ SIGNAL_ID = {"G": "1", "R": "1", "E": "7", "C": "1"}
 MODES = {"none": (0, "N"), "single": (1, "A"), "dgnss": (2, "D"), "rtk_float": (5, "F"), "rtk_fixed": (4, "R")}
 
 
-def checksum(body: str) -> str:
-    """XOR of every character between '$' and '*' as two upper-case hex digits (NMEA 0183)."""
-    c = 0
-    for ch in body.encode("ascii"):
-        c ^= ch
-    return f"{c:02X}"
+checksum = checksum_hex  # the sentence writers below and the receiver's command parser use this name
 
 
 def sentence(body: str) -> bytes:

@@ -29,6 +29,7 @@ from livefix.sim import nmea
 from livefix.sim.dialects import DialectChain, EpochCtx
 from livefix.sim.errors import GRID_HZ, SYSTEM_CN0_OFFSET, UERE, PositionError, cn0_model
 from livefix.sim.orbits import Constellation
+from livefix.sim.reflector import total_change_db, wavelengths
 from livefix.sim.scenario import FIX_ORDER, Fault, Scenario
 
 ORBIT_SEED = 20261  # the invented "almanac": the same sky for every run
@@ -95,6 +96,7 @@ class SimReceiver:
         self._sat_off = self._rng_cn0.normal(0.0, 1.5, len(self.const)) + np.array(
             [SYSTEM_CN0_OFFSET[s] for s in self.const.systems])
         self._sys_arr = np.array(self.const.systems)
+        self._lam = wavelengths(self.const.systems)  # carrier per satellite, for reflections
         self._err = PositionError(self._rng_err)
         self._talker = "GN" if len(scenario.systems) > 1 else nmea.TALKER[scenario.systems[0]]
         self.events: deque[tuple[float, str, str]] = deque(maxlen=1000)
@@ -168,6 +170,8 @@ class SimReceiver:
         for mp in sc.multipath:
             hit = np.array([mp.contains(a, e) for a, e in zip(az, el, strict=True)])
             cn0 = np.where(hit, cn0 - mp.atten_db + self._rng_cn0.normal(0.0, max(mp.jitter_db, 1e-9), len(el)), cn0)
+        if sc.reflectors:  # interference with reflections off the site's planes (no random draws)
+            cn0 = cn0 + total_change_db(sc.reflectors, az, el, self._lam)
         masked = np.array([any(m.contains(a, e) for m in sc.masks) for a, e in zip(az, el, strict=True)])
         view = el >= 0.0
         tracked = view & (el >= 3.0) & ~masked & (cn0 >= sc.track_min_cn0) & (t >= self._acq_at) & (not outage)

@@ -13,6 +13,8 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
+from livefix.sim.reflector import Reflector
+
 FAULT_KINDS = ("outage", "jump", "stall", "garbage", "checksum", "restart")
 RESTART_KINDS = ("cold", "warm", "hot")
 FIX_ORDER = ("none", "single", "dgnss", "rtk_float", "rtk_fixed")
@@ -79,6 +81,7 @@ class Scenario:
     faults: tuple[Fault, ...] = ()
     path: str = ""
     dialect: tuple[str, ...] = ()  # receiver dialects (livefix.sim.dialects), in application order
+    reflectors: tuple[Reflector, ...] = ()  # horizontal reflecting planes (livefix.sim.reflector)
 
     @property
     def start_iso(self) -> str:
@@ -111,11 +114,12 @@ def list_scenarios() -> list[str]:
 
 
 _TOP = {"name", "description", "start_utc", "site", "receiver", "fix", "restart", "mask", "multipath", "faults",
-        "dialect"}
+        "dialect", "reflector"}
 _SITE = {"name", "lat", "lon", "h", "sep"}
 _RECEIVER = {"systems", "elevation_mask_deg", "cn0_5deg", "cn0_zenith", "cn0_noise_db", "track_min_cn0"}
 _FIX = {"ttff_s", "dgnss_after_s", "float_after_s", "fixed_after_s", "best"}
 _SECTOR = {"az_from", "az_to", "el_below", "atten_db", "jitter_db"}
+_REFLECTOR = {"height_m", "amplitude", "roughness_m", "az_from", "az_to", "el_below", "phase_deg"}
 _FAULT = {"kind", "at", "duration", "offset_m", "azimuth_deg", "up_m", "restart", "fraction", "bytes_per_epoch"}
 
 
@@ -138,6 +142,7 @@ def _from_dict(d: dict[str, Any], label: str) -> Scenario:
             start = start.replace(tzinfo=_dt.UTC)
         masks = tuple(_sector(label, "mask", s) for s in d.get("mask", []))
         mps = tuple(_sector(label, "multipath", s) for s in d.get("multipath", []))
+        refl = tuple(_reflector(label, r) for r in d.get("reflector", []))
         faults = tuple(sorted((_fault(label, f) for f in d.get("faults", [])), key=lambda f: f.at))
         systems = tuple(rcv.get("systems", ("G", "R", "E", "C")))
         bad = [s for s in systems if s not in ("G", "R", "E", "C")]
@@ -163,7 +168,7 @@ def _from_dict(d: dict[str, Any], label: str) -> Scenario:
             ttff_s=float(fix.get("ttff_s", 30.0)), dgnss_after_s=float(fix.get("dgnss_after_s", 5.0)),
             float_after_s=float(fix.get("float_after_s", 15.0)), fixed_after_s=float(fix.get("fixed_after_s", 40.0)),
             best_fix=best, restart_ttff_s=restart, masks=masks, multipath=mps, faults=faults, path=label,
-            dialect=dialect)
+            dialect=dialect, reflectors=refl)
     except KeyError as exc:
         raise ValueError(f"{label}: missing key {exc.args[0]!r}") from exc
     except (TypeError, ValueError) as exc:
@@ -174,6 +179,16 @@ def _sector(label: str, where: str, s: dict[str, Any]) -> Sector:
     _check(label, f"{where}.", s, _SECTOR)
     return Sector(float(s["az_from"]), float(s["az_to"]), float(s.get("el_below", 90.0)),
                   float(s.get("atten_db", 0.0)), float(s.get("jitter_db", 0.0)))
+
+
+def _reflector(label: str, r: dict[str, Any]) -> Reflector:
+    _check(label, "reflector.", r, _REFLECTOR)
+    out = Reflector(float(r["height_m"]), float(r.get("amplitude", 0.15)), float(r.get("roughness_m", 0.0)),
+                    float(r.get("az_from", 0.0)), float(r.get("az_to", 360.0)), float(r.get("el_below", 30.0)),
+                    float(r.get("phase_deg", 180.0)))
+    if not (out.height_m > 0 and 0 <= out.amplitude < 1 and out.roughness_m >= 0):
+        raise ValueError("reflector: height_m > 0, 0 <= amplitude < 1 and roughness_m >= 0")
+    return out
 
 
 def _fault(label: str, f: dict[str, Any]) -> Fault:

@@ -11,11 +11,37 @@ from __future__ import annotations
 import threading
 import time
 from collections.abc import Iterator
+from pathlib import Path
 
-from livefix.record.reader import RecordingReader
+from livefix.record import fmt
+from livefix.record.reader import RecordingReader, _next_part, _open_stream, _parse_head, resolve_parts
 from livefix.sources.base import Item, Link, LinkEvent, SourceError
 
 SLICE_S = 0.05  # longest single sleep, so stop and controls act promptly
+
+
+def last_record_mono(path: str) -> float | None:
+    """Stream time of the last record of a recording (every part, compressed or not), reading
+    only record heads and skipping payloads: the replay header's length. None for plain logs or
+    when no record could be read."""
+    best: float | None = None
+    p: Path | None = resolve_parts(path)
+    try:
+        while p is not None:
+            f, _ = _open_stream(p)
+            with f:
+                f.readline(fmt.MAX_HEADER_LINE)
+                while line := f.readline(fmt.MAX_RECORD_LINE):
+                    head = _parse_head(line)
+                    if head is None:
+                        break
+                    if head[0] != fmt.END:
+                        best = head[1] if best is None else max(best, head[1])
+                    f.read(head[3] + 1)
+            p = _next_part(p)
+    except (OSError, EOFError, ValueError):
+        return best
+    return best
 
 
 class FileSource:
@@ -34,6 +60,9 @@ class FileSource:
         self.damage: str | None = None
         self.generation = 0
         self.position_s = 0.0  # stream seconds since the first item, of the last item delivered
+        self._first_mono: float | None = None
+        self._last_mono: float | None = None
+        self._tail_read = False
         self._speed = float(speed or 0.0)
         self._paused = False
         self._seek: float | None = None  # requested absolute position (s from start)
@@ -50,6 +79,21 @@ class FileSource:
     def speed(self, value: float | None) -> None:
         self._speed = float(value or 0.0)
         self._wake.set()
+
+    @property
+    def length_s(self) -> float | None:
+        """Stream seconds from the first to the last record (None until scanned, or a plain log)."""
+        if not self.recording or self._first_mono is None:
+            return None
+        if not self._tail_read:  # once, off the UI thread: a day-long file takes seconds to scan
+            self._tail_read = True
+            threading.Thread(target=self._scan_length, name="replay-length", daemon=True).start()
+        if self._last_mono is None or self._last_mono < self._first_mono:
+            return None
+        return self._last_mono - self._first_mono
+
+    def _scan_length(self) -> None:
+        self._last_mono = last_record_mono(self.path)
 
     @property
     def paused(self) -> bool:
@@ -99,6 +143,7 @@ class FileSource:
                 break
             if first is None:
                 first = item
+                self._first_mono = item.mono
             if ff_until is not None and item.mono >= ff_until:
                 ff_until = None
             if ff_until is None and self._speed > 0:

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import time
 
+from livefix.checksum import sentence_ok
 from livefix.sources.base import Link, LinkEvent
 
 STALL_S = 2.0  # connected but silent this long -> STALLED (once)
@@ -64,18 +65,7 @@ class StallWatch:
         return None
 
 
-def nmea_ok(line: bytes) -> bool:
-    """True for a complete `$...*hh` or `!...*hh` line whose checksum is right (NMEA 0183 XOR)."""
-    line = line.strip(b"\r\n ")
-    if len(line) < 6 or line[:1] not in (b"$", b"!") or line[-3:-2] != b"*":
-        return False
-    cs = 0
-    for b in line[1:-3]:
-        cs ^= b
-    try:
-        return int(line[-2:], 16) == cs
-    except ValueError:
-        return False
+nmea_ok = sentence_ok  # a complete `$...*hh` / `!...*hh` line with a right checksum (NMEA 0183 XOR)
 
 
 class NmeaCounter:

@@ -62,7 +62,7 @@ class SerialSource:
         return None
 
     def first_contact(self, timeout: float) -> None:
-        """Open the device once (livefix.sources.probe); SourceError with the OS reason if it fails."""
+        """Open the device once (livefix.probe); SourceError with the OS reason if it fails."""
         err = self.probe()
         if err is not None:
             raise SourceError(f"cannot open {self.path}: {err}")

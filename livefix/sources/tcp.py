@@ -44,7 +44,7 @@ class TcpSource:
         self._lock = threading.Lock()
         self._closed = threading.Event()
 
-    # -- start-up (livefix.sources.probe) -------------------------------------------------------
+    # -- start-up (livefix.probe) -------------------------------------------------------
     def first_contact(self, timeout: float) -> None:
         """Connect once within `timeout` (resolution included) or raise SourceError with the reason.
         The connected socket is kept for items(), so a one-client server is not dialled twice."""

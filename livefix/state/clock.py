@@ -3,7 +3,7 @@
 Why: most sentences carry only a time of day; the date comes from RMC or ZDA, sometimes not at all,
 and before a receiver knows the time its date is a default one. The clock carries the last valid
 date forward and rolls it at midnight; a default date is reported once ("receiver_date_invalid")
-and its epochs get no UTC (their time is not the real one). A jump (livefix.state.dates) moves the
+and its epochs get no UTC (their time is not the real one). A jump (livefix.dates) moves the
 clock only when the host clock vouches for it (a hole in the data) or the following epochs run on
 from it; until then the epoch gets no UTC, and a jump never confirmed is a "time_fault" event.
 """
@@ -14,7 +14,7 @@ import datetime as _dt
 from collections import deque
 from statistics import median
 
-from livefix.state.dates import CONFIRM_EPOCHS, agrees, date_problem, jump_limit
+from livefix.dates import CONFIRM_EPOCHS, agrees, date_problem, jump_limit
 from livefix.timefmt import date_known, iso
 
 _DAY = 86400.0

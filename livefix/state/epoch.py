@@ -113,5 +113,6 @@ class Event:
     def to_json(self) -> dict[str, Any]:
         from livefix.timefmt import iso
 
+        # "clock" says whose time "time" is: the receiver's UTC, or the host clock when no UTC is known
         return {"time": iso(self.utc if self.utc is not None else self.wall), "kind": self.kind,
-                "text": self.text, **self.data}
+                "text": self.text, "clock": "receiver" if self.utc is not None else "host", **self.data}

@@ -12,7 +12,7 @@ import datetime as _dt
 from typing import Any
 
 from livefix.decode import Decoded, Rejected
-from livefix.sources.base import Link, LinkEvent, Marker
+from livefix.items import Link, LinkEvent, Marker
 from livefix.state.clock import UtcClock
 from livefix.state.epoch import Epoch, Event, SatObs
 from livefix.state.sky import GsvAssembler, Sky

@@ -15,10 +15,13 @@ from typing import Any
 from textual.app import App, ComposeResult
 from textual.binding import Binding
 from textual.containers import Horizontal, Vertical
+from textual.filter import LineFilter, Monochrome, NoColor
 from textual.screen import ModalScreen
 from textual.widgets import Footer
 
 from livefix.pipeline import Snapshot
+from livefix.refpoint import parse_ref
+from livefix.ui import bands
 from livefix.ui import palette as pal_mod
 from livefix.ui.dialogs import ConfirmScreen, HelpScreen, PromptScreen
 from livefix.ui.events import EventList
@@ -26,7 +29,7 @@ from livefix.ui.fmt import dig
 from livefix.ui.sattable import SatTable
 from livefix.ui.skyplot import SkyPlot
 from livefix.ui.stability import Stability
-from livefix.ui.status import StatusStrip
+from livefix.ui.status import Mode, StatusStrip
 from livefix.ui.trends import Trends
 from livefix.ui.views import PageScreen, obstruction_text, signals_text
 
@@ -38,20 +41,22 @@ SPEED_RANGE = (0.25, 64.0)
 class MonitorApp(App[int]):
     CSS_PATH = str(Path(__file__).with_name("app.tcss"))  # absolute: subclasses live elsewhere
     TITLE = "livefix"
+    ENABLE_COMMAND_PALETTE = False  # the framework's palette offers its own themes, not livefix's
     HORIZONTAL_BREAKPOINTS = [(0, "-narrow"), (100, "-medium"), (140, "-wide")]
     VERTICAL_BREAKPOINTS = [(0, "-short"), (30, "-tall")]
+    # footer words are short so that every key that works fits in 80 columns
     BINDINGS = [
-        Binding("r", "record", "rec on/off"),
-        Binding("m", "marker", "marker"),
-        Binding("space", "pause", "pause"),
-        Binding("plus", "speed(2.0)", "faster"),
-        Binding("minus", "speed(0.5)", "slower"),
+        Binding("r", "record", "rec"),
+        Binding("m", "marker", "mark"),
+        Binding("space", "pause", "pause", key_display="spc"),
+        Binding("plus", "speed(2.0)", "fast"),
+        Binding("minus", "speed(0.5)", "slow"),
         Binding("greater_than_sign", "seek(30)", "seek +30s", show=False),
         Binding("less_than_sign", "seek(-30)", "seek -30s", show=False),
         Binding("1", "show_page('main')", "main", show=False),
-        Binding("2", "show_page('sky')", "obstruction"),
-        Binding("3", "show_page('signal')", "signals"),
-        Binding("a", "anchor", "ref=mean"),
+        Binding("2", "show_page('sky')", "sky"),
+        Binding("3", "show_page('signal')", "signal"),
+        Binding("a", "anchor", "ref"),
         Binding("e", "enter_ref", "type ref", show=False),
         Binding("z", "reset", "reset stats", show=False),
         Binding("s", "sort", "sort", show=False),
@@ -61,12 +66,14 @@ class MonitorApp(App[int]):
     ]
     HELP_ROWS = [
         ("r", "start / stop recording (asks for a file name)"), ("m", "add a marker with a typed note"),
-        ("space", "pause / resume the display feed"), ("+  -", "replay speed up / down (file replay)"),
+        ("space", "pause / resume (file replay, simulator)"),
+        ("+  -", "speed up / down (file replay, simulator)"),
         (">  <", "seek 30 s forward / back (file replay)"), ("1  2  3", "main / obstruction map / signals"),
         ("a", "set the reference to the current mean position"),
         ("e", "type a reference: lat, lon, ellipsoidal height"), ("z", "reset statistics (asks first)"),
         ("s", "change the satellite table sort"), ("?  F1", "this help"),
         ("q", "quit (asks first while recording)"), ("Esc", "back / close"),
+        ("band", "satellite table: band from the NMEA 4.11 GSV signal ID"), *bands.help_rows(),
     ]
 
     def __init__(self, feed: Any, *, palette: pal_mod.Palette | None = None, ascii_only: bool = False,
@@ -88,11 +95,12 @@ class MonitorApp(App[int]):
         self.snap: Snapshot | None = None
         self._seq: int | None = None
         self._changed_at = clock()
-        self._first_mono: float | None = None
         self._frozen: float | None = None
         self._link: str | None = None
         self._rec_touched = False  # the operator toggled recording here: trust self.recording
         self._link_at = self._changed_at
+        if ascii_only:
+            self.add_class("-ascii")  # app.tcss: no ellipsis glyph, plain dialog borders
         self.register_theme(self.palette.textual)
         self.theme = self.palette.textual.name
 
@@ -114,11 +122,13 @@ class MonitorApp(App[int]):
                 yield Trends(id="trends")
             with Vertical(id="event-panel", classes="panel" + extra):
                 yield EventList(id="events")
-        yield Footer()
+        yield Footer(compact=True)
 
-    TITLES = {"sky-panel": "Sky (N up)", "sats-panel": "Satellites", "stab-panel": "Stability",
+    TITLES = {"sky-panel": "Sky, N up, CAPS used", "sats-panel": "Satellites", "stab-panel": "Stability",
               "stab2-panel": "Stability",
               "trend-panel": "Trends", "event-panel": "Events"}
+
+    SUBTITLES = {"event-panel": "receiver UTC; h = host clock"}
 
     def on_mount(self) -> None:
         # keep references: App.query_one searches the *active* screen, which may be a page or dialog
@@ -131,9 +141,9 @@ class MonitorApp(App[int]):
         self.event_list = self.query_one(EventList)
         for pid, title in self.TITLES.items():
             self.panels[pid].border_title = title
+        # the legend fits the 80-column sky panel (about 26 cells of border)
         self.panels["sky-panel"].border_subtitle = (
-            "# @ O o strong>weak, - untracked, CAPS used" if self.ascii_only
-            else "◉●◐○ strong→weak  ◌ untracked  CAPS used")
+            "#@Oo strong>weak - none" if self.ascii_only else "◉●◐○ strong→weak ◌ none")
         self.install_screen(PageScreen(obstruction_text, "sky"), "sky")
         self.install_screen(PageScreen(signals_text, "signal"), "signal")
         self.tick()
@@ -165,21 +175,47 @@ class MonitorApp(App[int]):
             return  # nothing new to show; the stale counter moves once a second
         self.render_snapshot(snap)
 
+    def get_line_filters(self) -> list[LineFilter]:
+        """NO_COLOR means no colour codes at all (bold/reverse/underline stay), not greyscale."""
+        filters = list(super().get_line_filters())
+        if self.no_color:
+            filters = [f for f in filters if not isinstance(f, Monochrome)] + [NoColor()]
+        return filters
+
+    def source(self) -> Any:
+        """The object that paces the data: the session's source, or the feed itself."""
+        return getattr(self.feed, "source", self.feed)
+
+    def can(self, what: str) -> bool:
+        """Whether the current source supports a control (the footer shows only those keys)."""
+        src = self.source()
+        if what == "speed":
+            return hasattr(self.feed, "set_speed") and self.current_speed() is not None
+        if not callable(getattr(self.feed, what, None)):
+            return False
+        return what not in self.SOURCE_CONTROLS or callable(getattr(src, what, None))
+
+    def mode(self) -> Mode:
+        src = self.source()
+        pos, length = getattr(src, "position_s", None), getattr(src, "length_s", None)
+        return Mode(replay=self.can("seek"), speed=self.current_speed() if self.can("speed") else None,
+                    position_s=pos if isinstance(pos, (int, float)) else None,
+                    length_s=length if isinstance(length, (int, float)) else None)
+
     def render_snapshot(self, snap: Snapshot) -> None:
         self.snap = snap
         self.repaints += 1
-        if self._first_mono is None:
-            self._first_mono = snap.mono
         if self.recording is None and snap.recording and not self._rec_touched:
             self.recording = snap.recording  # e.g. started with --record
         rec = self.recording
-        self.status_strip.show(snap, snap.mono - self._first_mono, self.verdict_text(snap.analysis), self._frozen,
-                               rec, self.paused, self.current_speed() if hasattr(self.feed, "set_speed") else None)
+        session = dig(snap.analysis, "stream", "duration_s")  # stream time since the first byte
+        self.status_strip.show(snap, session if isinstance(session, (int, float)) else None,
+                               self.verdict_text(snap.analysis), self._frozen, rec, self.paused, self.mode())
         stale = self._frozen is not None
         for pid, panel in self.panels.items():
             panel.set_class(stale, "-stale")
             if pid != "sky-panel":
-                panel.border_subtitle = "STALE — last data" if stale else ""
+                panel.border_subtitle = "STALE — last data" if stale else self.SUBTITLES.get(pid, "")
         self.sky_plot.show(snap.sky, dig(snap.analysis, "sky", "grid"))
         self.sat_table.show(snap.sky, snap.mono)
         for stab in self.stabs:
@@ -191,13 +227,13 @@ class MonitorApp(App[int]):
 
     def verdict_text(self, analysis: dict[str, Any]) -> tuple[str, str]:
         if self.verdict_fn is None:
-            return ("no profile", "dim")
+            return ("none: no profile to judge against (--profile NAME)", "dim")
         try:
             results = list(self.verdict_fn(analysis))
         except Exception as exc:  # a profile bug must not take the monitor down
             return (f"profile error: {exc}", "bad")
         failed = [r for r in results if not getattr(r, "passed", False)]
-        label = f"{self.profile_name}: " if self.profile_name else ""
+        label = f"vs {self.profile_name}: " if self.profile_name else ""
         if not results:
             return (f"{label}no checks", "dim")
         if failed:
@@ -206,8 +242,15 @@ class MonitorApp(App[int]):
         return (f"{label}PASS {len(results)}/{len(results)}", "ok")
 
     # -- actions -------------------------------------------------------------------------
+    SOURCE_CONTROLS = frozenset({"pause", "seek"})  # the session passes these to its source
+    ACTION_NEEDS = {"pause": "pause", "speed": "speed", "seek": "seek", "record": "start_recording",
+                    "marker": "add_marker"}
+
     def check_action(self, action: str, parameters: tuple[object, ...]) -> bool | None:
-        return not isinstance(self.screen, ModalScreen)
+        if isinstance(self.screen, ModalScreen):
+            return False
+        need = self.ACTION_NEEDS.get(action)
+        return need is None or self.can(need)
 
     def _call(self, name: str, *args: Any) -> bool:
         fn = getattr(self.feed, name, None)
@@ -336,17 +379,3 @@ class MonitorApp(App[int]):
     def _repaint(self) -> None:
         if self.snap is not None:
             self.render_snapshot(self.snap)
-
-
-def parse_ref(text: str) -> tuple[float, float, float]:
-    """'lat, lon, h' (commas or spaces) -> floats, range-checked; ValueError says what is wrong."""
-    parts = [p for p in text.replace(",", " ").split() if p]
-    if len(parts) != 3:
-        raise ValueError("reference needs three numbers: lat, lon, h")
-    try:
-        lat, lon, h = (float(p) for p in parts)
-    except ValueError:
-        raise ValueError(f"reference {text!r}: not numbers") from None
-    if not (-90 <= lat <= 90 and -180 <= lon <= 180 and -12000 <= h <= 100000):
-        raise ValueError(f"reference {text!r}: out of range (lat ±90, lon ±180)")
-    return lat, lon, h

@@ -102,8 +102,8 @@ def _verdict(spec: str | None) -> tuple[Any, str]:
 
 
 def run(args: argparse.Namespace) -> int:
+    from livefix.refpoint import parse_ref
     from livefix.sources import SourceError, open_source
-    from livefix.ui.app import parse_ref
     from livefix.ui.palette import ThemeError
 
     _color_setting()
@@ -119,7 +119,7 @@ def run(args: argparse.Namespace) -> int:
         verdict, profile_name = _verdict(args.profile)
     except ValueError as exc:  # includes the profile loader's own one-line errors
         return _fail(str(exc))
-    from livefix.sources.probe import check_file, first_contact
+    from livefix.probe import check_file, first_contact
 
     wait = bool(getattr(args, "wait", False))
     try:

@@ -3,9 +3,16 @@
 from __future__ import annotations
 
 from textual.app import ComposeResult
-from textual.containers import Vertical
+from textual.containers import Vertical, VerticalScroll
 from textual.screen import ModalScreen
 from textual.widgets import Input, Label, Static
+
+from livefix.ui.fmt import asciify
+
+
+def _plain(app: object, text: str) -> str:
+    """Dialog text folded to ASCII when the app draws ASCII only."""
+    return asciify(text) if getattr(app, "ascii_only", False) else text
 
 
 class HelpScreen(ModalScreen[None]):
@@ -16,11 +23,16 @@ class HelpScreen(ModalScreen[None]):
         super().__init__()
         self.rows = rows
 
+    def on_mount(self) -> None:
+        from livefix.ui.panel import ascii_scrollbars
+
+        ascii_scrollbars(self.query_one("#help-box"))
+
     def compose(self) -> ComposeResult:
         text = "\n".join(f" {k:<10} {d}" for k, d in self.rows)
-        with Vertical(id="help-box"):
-            yield Label("Keys — press Esc to close", id="help-title")
-            yield Static(text, id="help-text")
+        with VerticalScroll(id="help-box"):  # scrolls where 24 rows are too few
+            yield Label(_plain(self.app, "Keys — press Esc to close"), id="help-title")
+            yield Static(_plain(self.app, text), id="help-text", markup=False)
 
 
 class PromptScreen(ModalScreen[str | None]):
@@ -34,7 +46,7 @@ class PromptScreen(ModalScreen[str | None]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="prompt-box"):
-            yield Label(self.question)
+            yield Label(_plain(self.app, self.question), markup=False)
             yield Input(value=self.value, placeholder=self.placeholder, id="prompt-input")
             yield Label("Enter to accept, Esc to cancel", classes="hint")
 
@@ -55,7 +67,7 @@ class ConfirmScreen(ModalScreen[bool]):
 
     def compose(self) -> ComposeResult:
         with Vertical(id="prompt-box"):
-            yield Label(self.question)
+            yield Label(_plain(self.app, self.question), markup=False)
             yield Label("y = yes   n / Esc = no", classes="hint")
 
     def action_answer(self, yes: bool) -> None:

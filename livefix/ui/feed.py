@@ -30,6 +30,20 @@ class SnapshotFeed:
     def latest(self) -> Snapshot:
         return self._snaps[self._i]
 
+    @staticmethod
+    def _since_first_byte(snap: Snapshot) -> float | None:
+        v = snap.analysis.get("stream", {}).get("duration_s") if isinstance(snap.analysis, dict) else None
+        return float(v) if isinstance(v, (int, float)) else None
+
+    @property
+    def position_s(self) -> float | None:
+        """Stream seconds since the first byte at the current snapshot (a replay's position)."""
+        return self._since_first_byte(self._snaps[self._i])
+
+    @property
+    def length_s(self) -> float | None:
+        return self._since_first_byte(self._snaps[-1])
+
     @property
     def done(self) -> bool:
         return self._i == len(self._snaps) - 1

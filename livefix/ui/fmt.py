@@ -25,7 +25,7 @@ BAR_PARTS = " ▏▎▍▌▋▊▉"
 
 # one character for one character, so styled spans keep their places when text is made ASCII
 ASCII_MAP = str.maketrans({"°": " ", "—": "-", "–": "-", "→": ">", "…": "~", "●": "*", "·": ".",
-                           "↕": "|", "×": "x", "█": "#", "░": ":", "▒": "x", "▓": "X"})
+                           "↕": "|", "×": "x", "±": "~", "≥": ">", "█": "#", "░": ":", "▒": "x", "▓": "X"})
 
 
 def asciify(text: str) -> str:

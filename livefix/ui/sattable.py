@@ -12,17 +12,30 @@ from textual.geometry import Size
 from textual.scroll_view import ScrollView
 from textual.strip import Strip
 
+from livefix.ui.bands import BAND_WIDTH, band
 from livefix.ui.fmt import asciify, bar, cn0_grade
+from livefix.ui.panel import ascii_scrollbars
 
 SYSTEM_ORDER = "GRECJIS"
-# sort key name -> (label, key function over SatObs); cycled with the sort binding
-SORTS: dict[str, tuple[str, Callable[[Any], Any]]] = {
-    "system": ("system/PRN", lambda o: (SYSTEM_ORDER.find(o.system), o.prn, o.signal)),
-    "cn0": ("C/N0", lambda o: (-(o.cn0 if o.cn0 is not None else -1), o.system, o.prn)),
-    "elev": ("elevation", lambda o: (-(o.elev if o.elev is not None else -99), o.system, o.prn)),
-    "used": ("used first", lambda o: (not o.used, o.cn0 is None, SYSTEM_ORDER.find(o.system), o.prn)),
+# C/N0 moves by a dB or two every second; the C/N0 sort uses a value held until the signal moves
+# by this much, so rows do not swap on noise (common practice: displays round C/N0 to 1 dB and
+# epoch-to-epoch noise is about 1 dB)
+CN0_HYSTERESIS_DB = 3.0
+
+
+def _tie(o: Any) -> tuple[int, int, str]:
+    """Every sort ends on constellation, satellite number and signal: equal keys never swap."""
+    return (SYSTEM_ORDER.find(o.system), o.prn, o.signal)
+
+
+# sort key name -> (label, key function over (SatObs, held C/N0)); cycled with the sort binding
+SORTS: dict[str, tuple[str, Callable[[Any, float], Any]]] = {
+    "system": ("system/PRN", lambda o, c: _tie(o)),
+    "cn0": ("C/N0", lambda o, c: (-c, *_tie(o))),
+    "elev": ("elevation", lambda o, c: (-(o.elev if o.elev is not None else -99), *_tie(o))),
+    "used": ("used first", lambda o, c: (not o.used, o.cn0 is None, *_tie(o))),
 }
-HEAD = " S PRN sg elev azim C/N0 {bar} use   age"
+HEAD = " S PRN band   elev azim C/N0 {bar} use  age"
 BAR_W = 8
 CN0_FULL = 55.0  # dB-Hz at a full bar (common practice: strong open-sky signals reach about 50)
 
@@ -35,6 +48,20 @@ class SatTable(ScrollView, can_focus=True):
         self.sort = "system"
         self.rows: list[tuple[str, Any]] = []  # (text, obs) in display order
         self.now = 0.0
+        self.held: dict[tuple[str, int, str], float] = {}  # C/N0 the sort uses, per signal
+
+    def _hold(self, sky: tuple[Any, ...]) -> None:
+        """Move a held C/N0 only when the signal moved by the hysteresis; forget signals gone."""
+        held: dict[tuple[str, int, str], float] = {}
+        for o in sky:
+            k = (o.system, o.prn, o.signal)
+            new = -1.0 if o.cn0 is None else float(o.cn0)
+            old = self.held.get(k)
+            held[k] = new if old is None or abs(new - old) >= CN0_HYSTERESIS_DB or (new < 0) != (old < 0) else old
+        self.held = held
+
+    def on_mount(self) -> None:
+        ascii_scrollbars(self)
 
     def cycle_sort(self) -> str:
         names = list(SORTS)
@@ -55,14 +82,16 @@ class SatTable(ScrollView, can_focus=True):
         elev = "—" if o.elev is None else f"{o.elev:>2d}°"
         azim = "—" if o.azim is None else f"{o.azim:>3d}°"
         use = "USED" if o.used else ("trk " if o.cn0 is not None else "view")
-        return (f" {o.system} {o.prn:>3d} {o.signal or '-':>2} {elev:>4} {azim:>4} {cn0:>4} "
-                f"{bar(o.cn0, CN0_FULL, BAR_W, ascii_only)} {use} {age:>4.0f}s")
+        return (f" {o.system} {o.prn:>3d} {band(o.system, o.signal):<{BAND_WIDTH}} {elev:>4} {azim:>4} {cn0:>4} "
+                f"{bar(o.cn0, CN0_FULL, BAR_W, ascii_only)} {use} {age:>3.0f}s")
 
-    BAR_AT = 25  # column where the bar starts in a row
+    BAR_AT = 29  # column where the bar starts in a row
 
     def _rebuild(self, sky: tuple[Any, ...]) -> None:
         ascii_only = bool(getattr(self.app, "ascii_only", False))
-        ordered = sorted(sky, key=SORTS[self.sort][1])
+        self._hold(sky)
+        key, held = SORTS[self.sort][1], self.held
+        ordered = sorted(sky, key=lambda o: key(o, held.get((o.system, o.prn, o.signal), -1.0)))
         new = [((asciify(r) if ascii_only else r), o) for o, r in ((o, self._row(o, ascii_only)) for o in ordered)]
         old = self.rows
         self.rows = new

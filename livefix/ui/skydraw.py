@@ -127,37 +127,71 @@ def draw(sats: Iterable[SkySat], rows: int, cols: int, *, ascii_only: bool = Fal
         r += {0: -1, 180: 1}.get(az, 0)
         c += {90: 2, 270: -2}.get(az, 0)
         put(r, c, text, "cardinal")
-    for el in RINGS_DEG[1:]:  # elevation scale along the north axis
-        r, c = project(g, 0, el)
-        for k, ch in enumerate(str(el)):
-            put(r, c + 1 + k, ch, "scale")
     _place_sats(cells, g, sats, ascii_only)
+    for el in RINGS_DEG[1:]:  # elevation scale along the north axis, only where nothing is drawn
+        r, c = project(g, 0, el)
+        span = range(c + 1, c + 1 + len(str(el)))
+        if all(0 <= x < cols and cells[r][x][1] in ("bg", "ring", "horizon", "blocked") for x in span):
+            for x, ch in zip(span, str(el), strict=True):
+                put(r, x, ch, "scale")
     return cells
 
 
 def _place_sats(cells: list[list[Cell]], g: Geometry, sats: Iterable[SkySat], ascii_only: bool) -> None:
+    """Glyphs first, then labels with a collision check: a label never covers a glyph or another
+    label or N/E/S/W, and touches no glyph but its own, no other label and no N/E/S/W; one that
+    fits nowhere is left out (the satellite table lists every satellite)."""
     glyphs = GLYPHS_ASCII if ascii_only else GLYPHS_UNICODE
-    taken: set[tuple[int, int]] = set()
-    # strongest first, so a crowded spot keeps the most useful label
+    marks: set[tuple[int, int]] = set()  # glyph cells
+    words: set[tuple[int, int]] = set()  # label cells
+    # strongest used first, so a crowded spot keeps the most useful glyph and label
     order = sorted((s for s in sats if s.elev is not None and s.azim is not None),
-                   key=lambda s: (not s.used, -(s.cn0 or 0)))
+                   key=lambda s: (not s.used, -(s.cn0 or 0), s.system, s.prn))
+    fixed = {(r, c) for r, row in enumerate(cells) for c, (_, role) in enumerate(row) if role == "cardinal"}
+    placed: list[tuple[SkySat, int, int]] = []
     for s in order:
         r, c = project(g, float(s.azim), float(s.elev))  # type: ignore[arg-type]
-        if not (0 <= r < g.rows and 0 <= c < g.cols):
+        if not (0 <= r < g.rows and 0 <= c < g.cols) or (r, c) in marks:
             continue
         grade = 0 if s.cn0 is None else cn0_grade(s.cn0)
         cells[r][c] = (glyphs[grade], f"grade-{grade}")
-        taken.add((r, c))
+        marks.add((r, c))
+        placed.append((s, r, c))
+    for s, r, c in placed:
         label = f"{s.system}{s.prn:02d}"
         label = label.upper() if s.used else label.lower()
         role = "label-used" if s.used else "label-free"
-        for start in (c + 1, c - len(label)):  # right of the glyph, else left of it
-            span = [(r, x) for x in range(start, start + len(label))]
-            if all(0 <= x < g.cols and p not in taken for p, (_, x) in zip(span, span, strict=True)):
-                for (_, x), ch in zip(span, label, strict=True):
-                    cells[r][x] = (ch, role)
-                taken.update(span)
-                break
+        n = len(label)
+        for row, start in ((r, c + 1), (r, c - n), (r - 1, c + 1), (r + 1, c + 1), (r - 1, c - n),
+                           (r + 1, c - n)):
+            span = [(row, x) for x in range(start, start + n)]
+            if not (0 <= row < g.rows and 0 <= start and start + n <= g.cols):
+                continue
+            if any(p in marks or p in words or p in fixed for p in span):
+                continue
+            ends = {(row, start - 1), (row, start + n)} - {(r, c)}
+            if ends & words or ends & marks or ends & fixed:
+                continue  # a label touching another label or glyph reads as belonging to it
+            for (_, x), ch in zip(span, label, strict=True):
+                cells[row][x] = (ch, role)
+            words.update(span)
+            break
+
+
+def labels(cells: list[list[Cell]]) -> list[tuple[int, int, str]]:
+    """(row, first column, text) of every label run in drawn cells: what tests check overlaps on."""
+    out: list[tuple[int, int, str]] = []
+    for r, row in enumerate(cells):
+        run, at = "", 0
+        for c, (ch, role) in enumerate([*row, (" ", "bg")]):
+            if role.startswith("label"):
+                if not run:
+                    at = c
+                run += ch
+            elif run:
+                out.append((r, at, run))
+                run = ""
+    return out
 
 
 def to_lines(cells: list[list[Cell]]) -> list[str]:

@@ -26,7 +26,7 @@ def _ttff(fix: dict[str, Any]) -> str:
     return duration(fix.get("ttff_s"))
 
 
-def _drift(p: dict[str, Any]) -> str:
+def drift_text(p: dict[str, Any], pm: str = "±") -> str:
     """Drift per axis as value ± half its 95 % interval: a slope without its uncertainty misleads."""
     d, ci = p.get("drift_mm_per_h"), p.get("drift_ci95_mm_per_h") or {}
     if not isinstance(d, dict):
@@ -34,22 +34,24 @@ def _drift(p: dict[str, Any]) -> str:
     out = []
     for k in ("e", "n", "u"):
         iv = ci.get(k)
-        pm = f"±{(iv[1] - iv[0]) / 2:.1f}" if isinstance(iv, list) and None not in iv else ""
-        out.append(f"{k} {num(d.get(k), '.1f')}{pm}")
+        half = f"{pm}{(iv[1] - iv[0]) / 2:.1f}" if isinstance(iv, list) and None not in iv else ""
+        out.append(f"{k} {num(d.get(k), '.1f')}{half}")
     return "  ".join(out)
 
 
-def _scatter(a: dict[str, Any], p: dict[str, Any]) -> str:
-    m = a.get("motion") or {}
+def scatter_text(a: dict[str, Any], short: bool = False) -> str:
+    """CEP50/95 (and 2DRMS unless short); a moving receiver has no scatter to speak of."""
+    m, p = a.get("motion") or {}, a.get("position") or {}
     if m.get("state") == "moving":
         return "not measured (receiver moving)"
-    text = f"{num(p.get('cep50_m'), M)} / {num(p.get('cep95_m'), M)} m  2DRMS {num(p.get('drms2_m'), M)}"
+    text = f"{num(p.get('cep50_m'), M)}/{num(p.get('cep95_m'), M)} m" if short else (
+        f"{num(p.get('cep50_m'), M)} / {num(p.get('cep95_m'), M)} m  2DRMS {num(p.get('drms2_m'), M)}")
     if m.get("state") == "mixed" and isinstance(m.get("moving_share"), (int, float)):
         text += f"  static part ({m['moving_share'] * 100:.0f} % moved)"
     return text
 
 
-def lines(a: dict[str, Any]) -> list[tuple[str, str]]:
+def lines(a: dict[str, Any], pm: str = "±") -> list[tuple[str, str]]:
     """(label, value) rows from the analysis dict; every missing key is a dash."""
     p = a.get("position") or {}
     mean, ref = p.get("mean") or {}, p.get("ref") or {}
@@ -65,11 +67,11 @@ def lines(a: dict[str, Any]) -> list[tuple[str, str]]:
         ("reference", f"{num(ref.get('lat'), '.7f')} {num(ref.get('lon'), '.7f')} {num(ref.get('h'), '.2f')}"
                       + (f" {ref.get('source')}" if ref.get("source") else "")),
         ("offset m", _enu(p.get("offset_m"))),
-        ("CEP50/95", _scatter(a, p)),
+        ("CEP50/95", scatter_text(a)),
         ("vert 95%", f"{num(p.get('v95_m'), M, ' m')}  converged "
                      + ("not yet" if conv is None else f"after {duration(conv)}")
                      + ("" if conv_v is None else f" (v {duration(conv_v)})")),
-        ("drift mm/h", _drift(p)),
+        ("drift mm/h", drift_text(p, pm)),
         ("TTFF", _ttff(fix) + (f" RTK {duration(rtk)}" if rtk is not None else "")
          + "  avail " + (f"{has * 100:.1f} %" if avail else DASH)
          + (f" lost {fix.get('fix_losses')}" if fix.get("fix_losses") is not None else "")),
@@ -94,7 +96,8 @@ class Stability(TextPanel):
     def _text(self) -> Text:
         st = self.app.palette.style  # type: ignore[attr-defined]
         t = Text(no_wrap=True, overflow="ellipsis")
-        for i, (label, value) in enumerate(lines(self.analysis)):
+        pm = "+-" if getattr(self.app, "ascii_only", False) else "±"
+        for i, (label, value) in enumerate(lines(self.analysis, pm)):
             if i:
                 t.append("\n")
             t.append(f"{label:<13} ", st("dim"))

@@ -13,6 +13,7 @@ from textual.widgets import Footer
 
 from livefix.pipeline import Snapshot
 from livefix.ui.fmt import DASH, asciify_text, bar, dig, num
+from livefix.ui.panel import ascii_scrollbars
 
 SHADES_UNICODE = (" ", "·", "░", "▒", "▓", "█")  # no data, clear, then rising untracked share
 SHADES_ASCII = (" ", ".", ":", "x", "X", "#")
@@ -69,49 +70,64 @@ class _Page(Widget):
         return asciify_text(t) if getattr(self.app, "ascii_only", False) else t
 
 
+def weak_name(z: dict[str, Any]) -> str:
+    a0, a1 = z.get("az_from"), z.get("az_to")
+    if not isinstance(a0, (int, float)) or not isinstance(a1, (int, float)):
+        return DASH
+    mid = (a0 + ((a1 - a0) % 360 or 360) / 2) % 360
+    return (f"{compass(mid)} sector {a0:.0f}°–{a1:.0f}° at {num(z.get('el_from'), '.0f')}–"
+            f"{num(z.get('el_to'), '.0f', '°')}: {num(z.get('below_curve_db'), '.1f')} dB under the curve")
+
+
 def obstruction_text(snap: Snapshot | None, app: Any) -> Text:
+    """The conclusion first (it must be above the fold at 80x24), then the map."""
     st, ascii_only = app.palette.style, bool(getattr(app, "ascii_only", False))
     t = Text(no_wrap=True)
-    t.append("Obstruction map — where satellites in view went untracked\n\n", st("head"))
+    t.append("Obstruction — where satellites in view went untracked or weak\n", st("head"))
     sky = dig(snap.analysis if snap else None, "sky") or {}
-    for ln in grid_lines(sky.get("grid"), ascii_only):
-        t.append(ln + "\n")
-    shades = SHADES_ASCII if ascii_only else SHADES_UNICODE
-    t.append(f"\nkey: '{shades[1]}' clear  '{shades[2]}'…'{shades[5]}' rising untracked share  "
-             "blank = never in view\n\n", st("dim"))
+    sig = dig(snap.analysis if snap else None, "signal") or {}
     t.append("clear above ", st("dim"))
     t.append(num(sky.get("clear_above_deg"), ".0f", "°"), st("value"))
     t.append("   visible share ", st("dim"))
     vs = sky.get("visible_share")
     t.append(DASH if vs is None else f"{vs * 100:.1f} %", st("value"))
-    t.append("\n\nBlocked sectors\n", st("head"))
-    sectors = sky.get("obstructed") or []
-    for s in sectors:
-        if isinstance(s, dict):
-            t.append("  " + sector_name(s) + "\n", st("warn"))
-    if not sectors:
-        t.append("  none found\n", st("dim"))
+    t.append("\nblocked: ", st("dim"))
+    sectors = [x for x in sky.get("obstructed") or [] if isinstance(x, dict)]
+    t.append("; ".join(sector_name(x) for x in sectors) or "none found", st("warn" if sectors else "value"))
+    t.append(f"\nweak (≥ {num(sig.get('weak_sector_db'), '.0f')} dB under the C/N0 curve): ", st("dim"))
+    weak = [x for x in sig.get("weak_sectors") or [] if isinstance(x, dict)]
+    if not weak:
+        t.append("none found", st("value"))
+    for x in weak:
+        t.append("\n  " + weak_name(x), st("warn"))
+    t.append("\n\n")
+    for ln in grid_lines(sky.get("grid"), ascii_only):
+        t.append(ln + "\n")
+    shades = SHADES_ASCII if ascii_only else SHADES_UNICODE
+    t.append(f"\nkey: '{shades[1]}' clear  '{shades[2]}'…'{shades[5]}' rising untracked share  "
+             "blank = never in view\n", st("dim"))
     return t
+
+
+BAND_DEG = 10  # one elevation band width on this page, the same as the session's by_elevation
 
 
 def signals_text(snap: Snapshot | None, app: Any) -> Text:
     st, ascii_only = app.palette.style, bool(getattr(app, "ascii_only", False))
     t = Text(no_wrap=True)
-    t.append("Signal levels by elevation — mean C/N0 (dB-Hz) per constellation, now\n\n", st("head"))
-    bands = list(range(0, 90, 15))
-    per: dict[str, dict[int, list[int]]] = {}
+    t.append(f"C/N0 by elevation, {BAND_DEG}° bands — mean dB-Hz per constellation now\n\n", st("head"))
+    bands = list(range(0, 90, BAND_DEG))
+    per: dict[str, dict[int, list[float]]] = {}
     for o in snap.sky if snap else ():
         if o.cn0 is not None and o.elev is not None:
-            per.setdefault(o.system, {}).setdefault(min(75, max(0, o.elev) // 15 * 15), []).append(o.cn0)
-    t.append("sys  " + "".join(f"{b:>2}–{b + 15:<2}°      " for b in bands) + "\n", st("dim"))
+            b = min(bands[-1], max(0, o.elev) // BAND_DEG * BAND_DEG)
+            per.setdefault(o.system, {}).setdefault(b, []).append(o.cn0)
+    t.append("sys " + "".join(f"{b:>2}-{b + BAND_DEG:<3}" for b in bands) + "\n", st("dim"))
     for sysl in sorted(per, key=lambda s: "GRECJIS".find(s)):
-        t.append(f" {sysl}   ", st("head"))
+        t.append(f" {sysl}  ", st("head"))
         for b in bands:
             v = per[sysl].get(b)
-            mean = sum(v) / len(v) if v else None
-            t.append(f"{num(mean, '4.1f'):>5} ", st("value"))
-            t.append(bar(mean, 55.0, 5, ascii_only), st("spark"))
-            t.append(" ")
+            t.append(f"{num(sum(v) / len(v) if v else None, '4.1f'):>5} ", st("value"))
         t.append("\n")
     if not per:
         t.append("  no tracked satellites\n", st("dim"))
@@ -127,6 +143,11 @@ def signals_text(snap: Snapshot | None, app: Any) -> Text:
     t.append("\n  weak for their elevation: ", st("dim"))
     weak = [w.get("sat", "?") for w in sig.get("weak") or [] if isinstance(w, dict)]
     t.append(", ".join(map(str, weak)) or "none", st("warn" if weak else "value"))
+    t.append("\n  weak sectors: ", st("dim"))
+    zones = [weak_name(z) for z in sig.get("weak_sectors") or [] if isinstance(z, dict)]
+    t.append("none" if not zones else "", st("value"))
+    for z in zones:
+        t.append("\n    " + z, st("warn"))
     return t
 
 
@@ -142,7 +163,10 @@ class PageScreen(Screen):
     def compose(self) -> ComposeResult:
         with VerticalScroll():
             yield self.page
-        yield Footer()
+        yield Footer(compact=True)
+
+    def on_mount(self) -> None:
+        ascii_scrollbars(self.query_one(VerticalScroll))
 
     def show(self, snap: Snapshot) -> None:
         if snap is not self.page.snap:

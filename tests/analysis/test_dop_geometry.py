@@ -7,7 +7,8 @@ import math
 import numpy as np
 import pytest
 
-from livefix.analysis.dop import DopStats, LogHistogram, used_geometry
+from livefix.analysis.dop import DopStats, used_geometry
+from livefix.analysis.streaming import LogHistogram
 from livefix.geodesy import dop as geometry_dop
 from livefix.state.epoch import Epoch, SatObs
 

@@ -244,7 +244,7 @@ def test_week_rollover_arithmetic():
     # IS-GPS-200: 10-bit week number, so the week rolls over every 1024 weeks = 7168 days; the
     # rollovers of 1999-08-22 and 2019-04-07 (GPS weeks start on Sunday 00:00) are 7168 days apart,
     # and week 0 started 1980-01-06 (shared/REFERENCES.md)
-    from livefix.state import dates
+    from livefix import dates
 
     assert dates.ROLLOVER_DAYS == 1024 * 7 == 7168
     assert dt.date(1980, 1, 6) + dt.timedelta(days=7168) == dt.date(1999, 8, 22)

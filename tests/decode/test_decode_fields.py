@@ -12,7 +12,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 from pynmeagps.nmeahelpers import calc_checksum, date2utc, dmm2ddd, time2utc
 
-from livefix.decode.decoder import xor_checksum
+from livefix.checksum import xor_checksum
 from livefix.decode.fast import parse_date, parse_latlon, parse_time
 
 DIGITS = "0123456789"

@@ -16,11 +16,11 @@ from typing import Any
 import pytest
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.commands.make_recordings import DEFAULT_DIR, RECORDINGS
+from livefix.commands.simulate import write_file
 from livefix.pipeline import Pipeline
 from livefix.record.reader import RecordingReader
 from livefix.sim import Scenario, SimReceiver, list_scenarios
-from livefix.sim.command import write_file
-from livefix.sim.make_recordings import DEFAULT_DIR, RECORDINGS
 from livefix.sources import Chunk, open_source
 
 

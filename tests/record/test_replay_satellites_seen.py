@@ -5,7 +5,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
-from livefix.record.replay_command import format_summary, summarize
+from livefix.commands.replay import format_summary, summarize
 from livefix.sources.file import FileSource
 
 

@@ -32,6 +32,8 @@ def assert_accounted(p: Pipeline) -> None:
     assert sum(c.rejected_by_type.values()) == c.bad_checksum + c.malformed + c.unknown
     assert p.framer.buffered <= MAX_LEN + 1
     assert len(c.recent_rejects) <= 8
+    # no bad input is livefix's own error (livefix.faults); the analysis raised nothing either
+    assert c.internal_errors == 0 and p.analyzer.internal_errors == 0, c.last_internal_error
 
 
 def push(chunks: list[bytes], step: float = 0.05) -> Pipeline:

@@ -11,7 +11,8 @@ from report_sample_data import sample_analysis
 
 from livefix import __version__
 from livefix.check.profile import evaluate, load_profile
-from livefix.report.document import CAUTIONS, ReceiverRun, build_report, write_all
+from livefix.report.document import CAUTIONS, ReceiverRun, build_report
+from livefix.report.write import write_all
 
 HOSTILE = "<script>document.title='pwned'</script>\x1b[31mred\x1b[0m"
 

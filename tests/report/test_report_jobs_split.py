@@ -45,7 +45,7 @@ TIMEOUT_S = 60
 def soak_file(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """10 min of the soak scenario at 10 Hz (outage, jump, stall, garbage, checksum burst,
     restarts) as a plain NMEA log: more distinct satellite lists than the id table holds."""
-    from livefix.sim.command import write_file
+    from livefix.commands.simulate import write_file
     from livefix.sim.receiver import SimReceiver
     from livefix.sim.scenario import Scenario
 

@@ -1,4 +1,4 @@
-"""Start-up checks (livefix.sources.probe): a live source that does not answer, a file without NMEA
+"""Start-up checks (livefix.probe): a live source that does not answer, a file without NMEA
 and a live stream of bytes without sentences are each named in one line. Real loopback sockets,
 pseudo-terminals and files; stream times come from the items, never from the host clock."""
 
@@ -15,10 +15,10 @@ from pathlib import Path
 import pytest
 from srckit import state_is, take
 
+from livefix.probe import NO_NMEA_S, NoNmeaWatch, check_file, first_contact, no_nmea_watch, scan_file
 from livefix.record.writer import Recorder
 from livefix.sources import SourceError, open_source
 from livefix.sources.base import Chunk, Link, LinkEvent
-from livefix.sources.probe import NO_NMEA_S, NoNmeaWatch, check_file, first_contact, no_nmea_watch, scan_file
 from livefix.sources.serial_port import AUTO_BAUDS, SerialSource
 from livefix.sources.tcp import TcpSource
 

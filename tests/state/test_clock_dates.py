@@ -7,10 +7,10 @@ import datetime as dt
 
 from pynmeagps.nmeahelpers import date2utc
 
+from livefix.dates import ROLLOVER_DAYS, date_problem
 from livefix.decode.fast import parse_date
 from livefix.record.linetime import line_time
 from livefix.state.clock import UtcClock
-from livefix.state.dates import ROLLOVER_DAYS, date_problem
 from livefix.timefmt import GPS_EPOCH, iso, year_from_yy
 
 D = dt.date

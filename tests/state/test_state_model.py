@@ -119,7 +119,7 @@ def test_midnight_rollover_without_date() -> None:
 def test_jump_and_rollback_are_events_and_epochs_still_emitted() -> None:
     sm = StateModel()
     # a jump moves the clock once two following epochs run on from it (issue 13 item 5; the rule
-    # is livefix.state.dates.CONFIRM_EPOCHS): +38 s then -12 s, each confirmed
+    # is livefix.dates.CONFIRM_EPOCHS): +38 s then -12 s, each confirmed
     times = ["120000", "120001", "120002", "120040", "120041", "120042", "120030", "120031", "120032"]
     eps = feed(sm, [gga(t) for t in times]) + sm.finish()
     assert len(eps) == len(times)

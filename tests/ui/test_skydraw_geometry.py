@@ -156,3 +156,28 @@ def test_sparkline_and_bar_shapes() -> None:
     assert bar(55, 55, 8) == "█" * 8
     assert bar(None, 55, 5) == " " * 5
     assert bar(27.5, 55, 8, ascii_only=True) == "====    "
+
+
+def test_labels_never_overlap_or_touch_in_a_crowded_sky() -> None:
+    # issue 15: sky labels collided at every size. 60 satellites, many within a few degrees
+    import random
+
+    from livefix.ui.skydraw import labels
+
+    rng = random.Random(5)
+    sats = [SkySat("GREC"[k % 4], k + 1, rng.randint(0, 90), rng.randint(0, 359), rng.choice([None, 25, 35, 42, 48]),
+                   k % 3 == 0) for k in range(60)]
+    sats += [SkySat("G", 90 + k, 45, 100 + k, 40, True) for k in range(6)]  # a tight cluster
+    for rows, cols in ((11, 28), (17, 47), (21, 66), (33, 80)):
+        cells = draw(sats, rows, cols)
+        found = labels(cells)
+        names = {f"{s.system}{s.prn:02d}" for s in sats}
+        glyph = {(r, c) for r, row in enumerate(cells) for c, (_, role) in enumerate(row) if role.startswith("grade")}
+        card = {(r, c) for r, row in enumerate(cells) for c, (_, role) in enumerate(row) if role == "cardinal"}
+        for r, c, text in found:
+            assert text.upper() in names, (rows, cols, text)  # whole labels only: none cut or merged
+            own = [(r, c - 1) in glyph, (r, c + len(text)) in glyph,  # beside its glyph, or diagonal
+                   any((rr, cc) in glyph for rr in (r - 1, r + 1) for cc in (c - 1, c + len(text)))]
+            assert any(own), (rows, cols, text)
+            assert (r, c - 1) not in card and (r, c + len(text)) not in card
+        assert len({t.upper() for _, _, t in found}) == len(found)  # each satellite labelled at most once

@@ -38,7 +38,7 @@ async def test_main_screen_shows_the_essentials(size: tuple[int, int]) -> None:
     assert "END OF DATA" in text and "RTK FIXED" in text
     assert "no profile" in text and "not recording" in text
     used = sum(1 for s in {(o.system, o.prn): o for o in final.sky if o.used}.values())
-    assert f"all {used}/" in text
+    assert f"used/trk/view {used}/" in text  # issue 15: used/tracked/in view on the status strip
     assert "N" in text and "Satellites" in text
     if size[0] >= 140:
         assert "Stability" in text and "Trends" in text and "Events" in text
@@ -85,7 +85,7 @@ async def test_pause_speed_and_seek(size: tuple[int, int]) -> None:
         assert "PAUSED" not in screen_text(app)
         await pilot.press("plus", "plus")
         await pilot.pause()
-        assert "speed ×4" in screen_text(app)
+        assert "REPLAY ×4" in screen_text(app)  # issue 15: the header names the mode and speed
         await pilot.press("minus")
         await pilot.press("greater_than_sign", "less_than_sign")
         await pilot.pause()
@@ -104,14 +104,14 @@ async def test_pages_switch_and_come_back(size: tuple[int, int]) -> None:
         await pilot.pause()
         assert isinstance(app.screen, PageScreen)
         text = screen_text(app)
-        assert "Obstruction map" in text
+        assert "Obstruction — where satellites" in text  # issue 15: conclusion first
         feed.step()  # new data while a page is up: the page follows it, the main screen too
         app.tick()
         await pilot.pause()
         assert app.screen.page.snap is feed.latest and app.snap is feed.latest
         await pilot.press("3")
         await pilot.pause()
-        assert "Signal levels by elevation" in screen_text(app)
+        assert "C/N0 by elevation, 10° bands" in screen_text(app)  # issue 15: one band width
         await pilot.press("escape")
         await pilot.pause()
         assert not isinstance(app.screen, PageScreen)

@@ -56,7 +56,7 @@ def test_watch_in_tmux_shows_the_recordings_figures(term: str, expected: tuple[s
                 break
         assert "END OF DATA" in pane, pane
         tot, ttff = expected
-        assert f"all {tot}" in pane
+        assert f"used/trk/view {tot}" in pane  # issue 15 status wording
         assert re.search(rf"TTFF\s+{re.escape(ttff)}", pane)
         assert "RTK FIXED" in pane and "Satellites" in pane
         styled = tmux(name, "capture-pane", "-p", "-e", "-t", name)

@@ -1,4 +1,4 @@
-"""Regenerate the demo recordings in recordings/ from the simulator (`python -m livefix.sim.make_recordings`).
+"""Regenerate the demo recordings in recordings/ from the simulator (`python -m livefix.commands.make_recordings`).
 
 Deterministic: the same code gives the same recorded items (simulated clocks, fixed seeds, fixed
 start UTC); only the recorder's closing record (host time) and the gzip flush points vary.
@@ -10,7 +10,7 @@ from __future__ import annotations
 import argparse
 from pathlib import Path
 
-from livefix.sim.command import write_file
+from livefix.commands.simulate import write_file
 from livefix.sim.receiver import SimReceiver
 from livefix.sim.scenario import Scenario
 
@@ -24,7 +24,7 @@ DEFAULT_DIR = Path(__file__).resolve().parents[2] / "recordings"
 
 README = """# Demo recordings
 
-Made by the built-in simulated receiver (`python -m livefix.sim.make_recordings`); every site,
+Made by the built-in simulated receiver (`python -m livefix.commands.make_recordings`); every site,
 satellite and number in them is invented. Each file is a gzip-compressed livefix recording,
 10 Hz, seed 1, stamped with simulated clocks, so regenerating gives the same recorded items (only
 the closing record's host time and the gzip flush points differ).

@@ -13,17 +13,8 @@ import sys
 import threading
 from typing import Any
 
+from livefix.refpoint import parse_ref
 from livefix.report.escape import term_text
-
-
-def parse_ref(text: str) -> tuple[float, float, float]:
-    try:
-        lat, lon, h = (float(v) for v in text.split(","))
-    except ValueError as exc:
-        raise ValueError(f"bad --ref {text!r}: use LAT,LON,H (degrees, degrees, ellipsoidal metres)") from exc
-    if not (-90 <= lat <= 90 and -180 <= lon <= 360):
-        raise ValueError(f"bad --ref {text!r}: latitude or longitude out of range")
-    return (lat, lon, h)
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -53,8 +44,8 @@ def run(args: argparse.Namespace) -> int:
     from livefix.check.profile import ProfileError, load_profile
     from livefix.check.runner import CheckOptions, CheckRun, name_sources
     from livefix.parallel import AnalysisProcessError
+    from livefix.probe import check_file, first_contact
     from livefix.sources import SourceError
-    from livefix.sources.probe import check_file, first_contact
     from livefix.timefmt import parse_duration
 
     err = sys.stderr
@@ -96,7 +87,7 @@ def run(args: argparse.Namespace) -> int:
         if old is not None:
             signal.signal(signal.SIGINT, old)
     if args.report:
-        from livefix.report.document import write_all
+        from livefix.report.write import write_all
 
         try:
             for path in write_all(report, args.report, junit=True):

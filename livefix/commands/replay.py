@@ -45,8 +45,8 @@ def run(args: argparse.Namespace) -> int:
             print("livefix replay: the UI is not available; replaying headless", file=sys.stderr)
         else:
             return int(run_replay(args) or 0)
+    from livefix.probe import check_file
     from livefix.sources.file import FileSource
-    from livefix.sources.probe import check_file
 
     try:
         src = FileSource(args.file, speed=speed)

@@ -40,9 +40,9 @@ def _human(n: float) -> str:
 
 
 def run(args: argparse.Namespace) -> int:
+    from livefix.probe import check_file, first_contact, no_nmea_watch
     from livefix.record.writer import Recorder
     from livefix.sources import open_source
-    from livefix.sources.probe import check_file, first_contact, no_nmea_watch
 
     try:
         duration = parse_duration(args.duration) if args.duration else None

@@ -51,12 +51,13 @@ def _analyse(src: Source, config: AnalysisConfig, split: bool) -> Snapshot:
 
 def run(args: argparse.Namespace) -> int:
     from livefix.analysis.config import AnalysisConfig
-    from livefix.check.command import parse_ref
     from livefix.check.profile import ProfileError, evaluate, load_profile
     from livefix.parallel import AnalysisProcessError, want_split
-    from livefix.report.document import ReceiverRun, build_report, to_json, write_all
+    from livefix.probe import check_file
+    from livefix.refpoint import parse_ref
+    from livefix.report.document import ReceiverRun, build_report, to_json
+    from livefix.report.write import write_all
     from livefix.sources import SourceError, open_source
-    from livefix.sources.probe import check_file
 
     try:
         ref = parse_ref(args.ref) if args.ref else None
