@@ -194,12 +194,9 @@ ROWS = [
     ("replay-empty", "replay --headless {FILE:empty}", None, 2, "is empty"),
     ("replay-ui-binary", "replay {FILE:binary}", None, 2, "no NMEA sentences"),
     ("profile-unknown-key", "report {FILE:mixed} --json --profile {FILE:unknown_key}", None, 2, "unknown key 'colour'"),
-    pytest.param("profile-unknown-metric", "report {FILE:mixed} --json --profile {FILE:unknown_metric}", None, 2,
-                 "no_such.metric", marks=pytest.mark.xfail(strict=True, reason="livefix/check/profile.py does not "
-                                                           "check metric names yet (owned by another part)")),
-    pytest.param("profile-unknown-unit", "report {FILE:mixed} --json --profile {FILE:unknown_unit}", None, 2,
-                 "furlongs", marks=pytest.mark.xfail(strict=True, reason="livefix/check/profile.py does not "
-                                                     "check units yet (owned by another part)")),
+    ("profile-unknown-metric", "report {FILE:mixed} --json --profile {FILE:unknown_metric}", None, 2,
+     "no_such.metric"),
+    ("profile-unknown-unit", "report {FILE:mixed} --json --profile {FILE:unknown_unit}", None, 2, "furlongs"),
     # live bytes that never hold a sentence: named after NO_NMEA_S (5 s) of stream time
     ("record-tcp-binary", "record {src} -o {out} --duration 60s", ("tcp", junk), 2, "wrong port, or a binary protocol?"),
     ("check-tcp-binary", "check {src} --duration 60s", ("tcp", junk), 2, "but no NMEA sentence"),

@@ -155,3 +155,34 @@ def figure(analysis: dict[str, Any], path: str, reduce: str | None = None) -> tu
     if not is_num(value):
         return None, f"not a number ({type(value).__name__})"
     return float(value), ""
+
+
+# Units a threshold may state (its figure's unit; shown beside the limit in reports).
+UNITS = ("", "m", "mm", "s", "ms", "h", "mm/h", "m/s", "dB-Hz", "dB", "deg", "ratio", "%", "Hz", "bytes",
+         "count")
+_SHAPE: dict[str, frozenset[str] | None] = {}
+
+
+def _shape() -> dict[str, frozenset[str] | None]:
+    """Top-level snapshot sections and, for dict sections, their keys: read from an empty Analyzer,
+    so the list can never drift from what the analysis publishes."""
+    if not _SHAPE:
+        from livefix.analysis.engine import Analyzer
+
+        snap = Analyzer().snapshot(None)
+        _SHAPE.update({k: frozenset(v) if isinstance(v, dict) else None for k, v in snap.items()})
+        _SHAPE["derived"] = frozenset(DERIVED)
+    return _SHAPE
+
+
+def unknown_metric(path: str) -> str | None:
+    """None when the first two segments of `path` name a published figure; else a one-line reason
+    that lists the valid names at the level that failed."""
+    names = [m.group(1) for m in _SEGMENT.finditer(path)][:2]
+    shape = _shape()
+    if not names or names[0] not in shape:
+        return f"unknown metric {path!r}: it must start with one of {', '.join(sorted(shape))}"
+    keys = shape[names[0]]
+    if len(names) > 1 and keys is not None and names[1] not in keys:
+        return (f"unknown metric {path!r}: {names[0]}.* holds {', '.join(sorted(keys))}")
+    return None

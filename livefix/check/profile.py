@@ -23,7 +23,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from livefix.analysis.paths import OPS, REDUCERS, Missing, figure, is_num, resolve, valid_path
+from livefix.analysis.paths import OPS, REDUCERS, UNITS, Missing, figure, is_num, resolve, unknown_metric, valid_path
 from livefix.check.interval import INTERVALS, STATIC_PREFIXES, judge
 from livefix.checksum import with_checksum
 
@@ -211,6 +211,11 @@ def _threshold(t: Any, where: str) -> Threshold:
             raise ProfileError(f"{where}: key 'fix' must be one of {', '.join(FIX_NAMES.values())}")
         if not any(t["metric"].startswith(p) for p, _ in FIX_SCOPES):
             raise ProfileError(f"{where}: key 'fix' applies only to position.* or fix.availability")
+    bad = unknown_metric(t["metric"])
+    if bad is not None:
+        raise ProfileError(f"{where}: {bad}")
+    if str(t.get("unit", "")) not in UNITS:
+        raise ProfileError(f"{where}: unknown unit {t['unit']!r}: use one of {', '.join(u for u in UNITS if u)}")
     return Threshold(name=str(t["name"]), metric=t["metric"], op=t["op"], limit=float(t["limit"]), fix=fix,
                      reduce=t.get("reduce"), unit=str(t.get("unit", "")),
                      description=str(t.get("description", "")), source=str(t.get("source", "common practice")))

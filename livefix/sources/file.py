@@ -163,6 +163,8 @@ class FileSource:
             detail = f"end of recording ({reader.records} records)"
         else:
             detail = "end of log"
+        if not reader.damage and isinstance(last, LinkEvent) and last.state == Link.ENDED:
+            return  # the recording already says how its source ended: one "ended", not two
         yield LinkEvent(mono, wall, Link.ENDED, detail)
 
     def _pace(self, mono: float, anchor: tuple[float, float] | None, halt) -> tuple[float, float] | None:  # noqa: ANN001

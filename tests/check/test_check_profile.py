@@ -107,3 +107,18 @@ def test_percentile_matches_numpy():
     xs = [31.0, 3.5, 28.2, 40.0, 35.5, 29.9, 33.3]
     for q in (0, 50, 95, 100):
         assert percentile(xs, q) == pytest.approx(float(np.percentile(xs, q)))
+
+
+def test_unknown_metric_and_unit_are_refused_with_the_valid_names() -> None:
+    # issue 15 item 5: a profile naming an unknown metric or unit fails at load, naming it and
+    # listing valid names (the names come from the analysis snapshot itself, livefix/analysis/paths.py)
+    import pytest as _pytest
+
+    from livefix.check.profile import ProfileError, parse_profile
+
+    head = '[[threshold]]\nname = "x"\nop = "<="\nlimit = 1\n'
+    with _pytest.raises(ProfileError, match=r"unknown metric 'position\.cep96_m'.*cep95_m"):
+        parse_profile(head + 'metric = "position.cep96_m"\n')
+    with _pytest.raises(ProfileError, match=r"unknown unit 'furlongs'.*mm/h"):
+        parse_profile(head + 'metric = "position.cep95_m"\nunit = "furlongs"\n')
+    parse_profile(head + 'metric = "position.cep95_m"\nunit = "m"\n')  # a known pair is accepted

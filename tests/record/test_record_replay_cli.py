@@ -127,3 +127,18 @@ def test_errors_exit_2_with_one_line(tmp_path) -> None:
         lines = res.stderr.decode().strip().splitlines()
         assert len(lines) == 1 and lines[0].startswith("livefix "), (args, lines)
     assert existing.read_bytes() == b""
+
+
+def test_replay_summary_counts_the_recorded_end_once(tmp_path) -> None:  # noqa: ANN001
+    # issue 15 item 8: a recording that already holds its source's "ended" event must not be counted
+    # twice in the summary (the simulator writes exactly one, livefix/commands/simulate.py)
+    import subprocess
+    import sys
+
+    out = tmp_path / "s.lfr"
+    subprocess.run([sys.executable, "-m", "livefix", "simulate", "rooftop", "--duration", "5s", "-o", str(out)],
+                   check=True, capture_output=True, timeout=120)
+    r = subprocess.run([sys.executable, "-m", "livefix", "replay", "--headless", str(out)],
+                       capture_output=True, text=True, timeout=120)
+    text = r.stdout + r.stderr
+    assert "ended 1" in text and "ended 2" not in text, text
