@@ -23,7 +23,17 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
-from livefix.analysis.paths import OPS, REDUCERS, UNITS, Missing, figure, is_num, resolve, unknown_metric, valid_path
+from livefix.analysis.paths import (
+    OPS,
+    REDUCERS,
+    UNITS,
+    Missing,
+    figure,
+    is_num,
+    resolve,
+    unknown_metric,
+    valid_path,
+)
 from livefix.check.interval import INTERVALS, STATIC_PREFIXES, judge
 from livefix.checksum import with_checksum
 
