@@ -9,7 +9,7 @@ import sys
 
 # name -> (module with add_arguments(parser) and run(args) -> int, one-line help)
 COMMANDS: dict[str, tuple[str, str]] = {
-    "watch": ("livefix.ui.command", "full-screen live monitor of a source (or replay of a recording)"),
+    "watch": ("livefix.commands.watch", "full-screen live monitor of a source (or replay of a recording)"),
     "check": ("livefix.commands.check", "headless pass/fail run of one or more sources against a profile"),
     "report": ("livefix.commands.report", "analyse a recording or NMEA log and write JSON/Markdown/HTML"),
     "record": ("livefix.commands.record", "record a source losslessly to a file"),

@@ -40,7 +40,7 @@ def run(args: argparse.Namespace) -> int:
         return 2
     if not args.headless:
         try:
-            from livefix.ui.command import run_replay
+            from livefix.commands.watch import run_replay
         except ImportError:
             print("livefix replay: the UI is not available; replaying headless", file=sys.stderr)
         else:

@@ -9,7 +9,7 @@ import pytest
 from uikit import RECORDINGS
 
 from livefix.cli import main
-from livefix.ui.command import needs_ascii, parse_speed
+from livefix.commands.watch import needs_ascii, parse_speed
 
 REC = str(RECORDINGS / "rooftop-5min.lfr")
 
@@ -71,7 +71,7 @@ def test_invalid_colour_system_is_dropped_with_a_warning(capsys: pytest.CaptureF
                                                          monkeypatch: pytest.MonkeyPatch) -> None:
     import os
 
-    from livefix.ui.command import _color_setting
+    from livefix.commands.watch import _color_setting
 
     monkeypatch.setenv("TEXTUAL_COLOR_SYSTEM", "sixteen")  # Textual would crash with KeyError
     _color_setting()
@@ -83,7 +83,7 @@ def test_invalid_colour_system_is_dropped_with_a_warning(capsys: pytest.CaptureF
 
 
 def test_replay_with_ui_reports_a_bad_file_as_replay(capsys: pytest.CaptureFixture[str]) -> None:
-    from livefix.ui import command
+    from livefix.commands import watch as command
 
     try:
         rc, err = run(["replay", "/nonexistent/run.lfr"], capsys)
