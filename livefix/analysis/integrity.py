@@ -152,7 +152,7 @@ class StreamIntegrity:
         dt = host
         if ep.utc is not None and p.utc is not None and 0 < ep.utc - p.utc < 3600:
             dt = ep.utc - p.utc
-        if dt <= 0:
+        if not dt > 0:  # also NaN (a broken stamp): never enters the interval window
             return
         nominal = self._nominal
         if nominal is not None and dt > GAP_FACTOR * nominal:
