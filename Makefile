@@ -4,9 +4,9 @@ VENV   := .venv
 PY     := $(VENV)/bin/python
 STAMP  := $(VENV)/.installed
 
-.PHONY: demo test lint bench fuzz recordings clean
+.PHONY: demo test lint bench mutants fuzz recordings docs clean
 
-$(STAMP): pyproject.toml
+$(STAMP): pyproject.toml setup.py livefix/_native.c  # the C core is rebuilt in place when its source changes
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install -q --upgrade pip
 	$(PY) -m pip install -q -e '.[test]'
@@ -18,6 +18,9 @@ demo: $(STAMP)
 test: $(STAMP)
 	$(PY) -m ruff check livefix tests bench
 	$(PY) -m pytest
+	# the pure-Python reference path again for the stages the C core replaces (the whole suite
+	# twice would exceed the CI budget); the identity tests compare both paths on everything else
+	LIVEFIX_PURE=1 $(PY) -m pytest tests/framing tests/decode tests/state
 
 lint: $(STAMP)
 	$(PY) -m ruff check livefix tests bench
@@ -25,11 +28,20 @@ lint: $(STAMP)
 bench: $(STAMP)
 	$(PY) bench/run_all.py
 
+mutants: $(STAMP)  # deliberate faults in analysis/ that the tests must catch; writes bench/mutants-result.md
+	$(PY) bench/mutants.py
+
 fuzz: $(STAMP)
 	$(PY) bench/fuzz.py --inputs 1000000
+	# the C core built with ASan+UBSan in a temporary folder, compared with the pure path
+	if $(PY) -c "import livefix._native" 2>/dev/null; then $(PY) bench/fuzz.py --asan --inputs 1000000; \
+	else echo "livefix: C core not built; native fuzz skipped"; fi
 
 recordings: $(STAMP)
 	$(PY) -m livefix.commands.make_recordings
 
+docs: $(STAMP)  # the metric table, generated from livefix/analysis/catalogue.py
+	$(PY) -m livefix.analysis.catalogue > docs/metrics.md
+
 clean:
-	rm -rf $(VENV) build *.egg-info .pytest_cache .ruff_cache
+	rm -rf $(VENV) build *.egg-info .pytest_cache .ruff_cache livefix/_native*.so

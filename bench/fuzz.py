@@ -3,6 +3,12 @@ wrong talkers and time that jumps about. Not part of the test suite (`make fuzz`
 
 Prints inputs/s, exceptions (must be 0), peak RSS and RSS growth over the run, as RESULT lines.
 Deterministic for a seed. Usage: python bench/fuzz.py --inputs 100000 [--seed 1]
+
+With --native-diff the inputs (plus byte-level mutations that keep a valid checksum, embedded NULs,
+overlong lines and multi-line blocks) go instead through the C core and the pure-Python path side by
+side (Framer and Decoder with native=True / False) and every disagreement is counted; `make fuzz`
+runs that under AddressSanitizer and UndefinedBehaviorSanitizer (bench/fuzz_asan.sh).
+tests/decode/test_native_identity.py runs a sample of the same inputs.
 """
 
 from __future__ import annotations
@@ -10,6 +16,7 @@ from __future__ import annotations
 import argparse
 import random
 import resource
+import subprocess
 import sys
 import time
 import traceback
@@ -20,7 +27,7 @@ sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 from livefix.pipeline import Pipeline  # noqa: E402
 from livefix.sources.base import Chunk, Link, LinkEvent, Marker  # noqa: E402
 
-# Public example sentences (shared/REFERENCES.md: the public NMEA data reference page).
+# Public example sentences (a public NMEA example page, docs/sources.md#example-sentences).
 BASE = [
     "GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,",
     "GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W",
@@ -95,6 +102,169 @@ def one_input(rng: random.Random, base: list[str]) -> bytes:
     return data
 
 
+MUTANT_BYTES = b"0123456789.,-+eE*$ \x00NSEWAV_\r\n\x80\xff!"
+
+
+def mutate_bytes(rng: random.Random, line: bytes) -> bytes:
+    """A byte-level mutation of one framed sentence (no terminator), with its checksum set right
+    again most of the time, so the field conversions themselves are exercised."""
+    b = bytearray(line)
+    for _ in range(rng.randrange(1, 4)):
+        op = rng.randrange(5)
+        j = rng.randrange(1, max(2, len(b)))
+        if op == 0 and len(b) > 1:
+            b[j % len(b)] = rng.choice(MUTANT_BYTES)
+        elif op == 1:
+            b[j:j] = bytes([rng.choice(MUTANT_BYTES)]) * rng.randrange(1, 4)
+        elif op == 2:
+            del b[j:j + rng.randrange(1, 4)]
+        elif op == 3:
+            b[j:j] = b[max(1, j - 8):j]
+        else:
+            b[j:j] = rng.choice([b"\x00", b"0" * rng.randrange(1, 40), b"9" * 25, b".", b"-", b"1e5"])
+    body = bytes(b[1:b.rfind(b"*")] if b.rfind(b"*") > 0 else b[1:])
+    if rng.random() < 0.8:
+        case = "%02X" if rng.random() < 0.9 else "%02x"
+        return b[:1] + body + b"*" + (case % cs(body)).encode()
+    return bytes(b)
+
+
+def native_input(rng: random.Random, base: list[str]) -> bytes:
+    """One input for the native/pure differential: a chunk of bytes for the framer."""
+    k = rng.random()
+    if k < 0.5:  # a valid-checksum line mutated at byte level
+        line = make(rng.choice(base))[:-2]
+        return mutate_bytes(rng, line) + rng.choice([b"\r\n", b"\r\n", b"\n", b""])
+    if k < 0.6:  # a plain block of several whole lines (the framer's C split)
+        return b"".join(make(rng.choice(base)) for _ in range(rng.randrange(1, 12)))
+    if k < 0.65:  # overlong lines and embedded NULs
+        return b"$GPGGA," + bytes(rng.choice(b"0,.\x00") for _ in range(rng.randrange(100, 700))) + b"*00\r\n"
+    return one_input(rng, base)
+
+
+def _strict(v: object) -> object:
+    """A value with its type spelled out, so 1 != 1.0 and 0.0 != -0.0 in the comparison."""
+    if isinstance(v, dict) or v.__class__.__name__ == "mappingproxy":
+        return [(k, _strict(x)) for k, x in v.items()]  # type: ignore[union-attr]
+    if isinstance(v, list | tuple):
+        return [_strict(x) for x in v]
+    return (type(v).__name__, repr(v))
+
+
+def strict_item(d: object) -> object:
+    """A Decoded or Rejected value in strict form (type-exact fields)."""
+    fields = getattr(d, "fields", None)
+    return (type(d).__name__, getattr(d, "talker", None), getattr(d, "msg_id", None), getattr(d, "reason", None),
+            getattr(d, "detail", None), _strict(fields) if fields is not None else None)
+
+
+def native_diff(inputs: int, seed: int = 1, base: list[str] | None = None) -> tuple[int, int, list[str]]:
+    """(inputs, disagreements, first examples): each input framed and decoded by the C core and by
+    the pure path; sentences, counters and every decoded value (type-exact) must agree."""
+    from livefix import _native  # noqa: F401 - fails loudly when the core is not built
+    from livefix.decode.decoder import Decoder
+    from livefix.framing import Framer
+
+    rng = random.Random(seed)
+    base = base if base is not None else BASE + sim_base()
+    fn, fp = Framer(native=True), Framer(native=False)
+    dn, dp = Decoder(native=True), Decoder(native=False)
+    bad, examples = 0, []
+    for n in range(inputs):
+        data = native_input(rng, base)
+        ln, lp = fn.feed(data), fp.feed(data)
+        if n % 1000 == 999:
+            ln, lp = ln + fn.finish(), lp + fp.finish()
+        same = ln == lp and fn.counters == fp.counters
+        if same:
+            for a in ln:
+                if strict_item(dn.decode(a)) != strict_item(dp.decode(a)):
+                    same = False
+                    break
+        if not same:
+            bad += 1
+            if len(examples) < 5:
+                examples.append(repr(data[:200]))
+    if dn.counters != dp.counters:
+        bad += 1
+        examples.append("decoder counters differ")
+    return inputs, bad, examples
+
+
+def load_core(path: str) -> None:
+    """Use the C core built at `path` (the sanitizer build) as livefix._native in this process."""
+    import importlib.util
+
+    spec = importlib.util.spec_from_file_location("livefix._native", path)
+    assert spec is not None and spec.loader is not None
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    sys.modules["livefix._native"] = mod
+    import livefix
+
+    livefix._native = mod  # type: ignore[attr-defined]
+
+
+def asan_run(inputs: int, seed: int) -> int:
+    """Build the C core with AddressSanitizer + UndefinedBehaviorSanitizer into a temporary folder
+    and run the native/pure differential under it. Leaks count only when a stack names _native.c
+    (the interpreter itself keeps memory to the end of the process)."""
+    import os
+    import re
+    import sysconfig
+    import tempfile
+
+    src = Path(__file__).resolve().parents[1] / "livefix" / "_native.c"
+    cc = os.environ.get("CC", "gcc")
+    libasan = subprocess.run([cc, "-print-file-name=libasan.so"], capture_output=True, text=True).stdout.strip()
+    with tempfile.TemporaryDirectory(prefix="livefix-asan-") as tmp:
+        so = Path(tmp) / ("_native" + (sysconfig.get_config_var("EXT_SUFFIX") or ".so"))
+        cmd = [cc, "-shared", "-fPIC", "-O1", "-g", "-fsanitize=address,undefined", "-fno-omit-frame-pointer",
+               "-ffp-contract=off", "-Wall", "-I", sysconfig.get_paths()["include"], str(src), "-o", str(so)]
+        subprocess.run(cmd, check=True)
+        def child(n: int, options: str) -> tuple[subprocess.CompletedProcess, float]:
+            env = dict(os.environ, LD_PRELOAD=libasan, PYTHONMALLOC="malloc",
+                       ASAN_OPTIONS="detect_leaks=1:exitcode=23:halt_on_error=1" + options,
+                       UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1")
+            t0 = time.perf_counter()
+            r = subprocess.run([sys.executable, __file__, "--native-diff", "--inputs", str(n), "--seed",
+                                str(seed), "--core", str(so)], env=env, capture_output=True, text=True)
+            return r, time.perf_counter() - t0
+
+        # The interpreter keeps some memory to the end of the process, so a leak is judged two ways:
+        # stacks naming _native.c on a short run with full (slow) unwinding, and leaked allocations
+        # of the whole run against a 100-input run (a per-line leak grows with the inputs).
+        base, _ = child(100, "")
+        traced, _ = child(min(inputs, 2000), ":fast_unwind_on_malloc=0:malloc_context_size=12")
+        r, dt = child(inputs, "")
+    sys.stdout.write(r.stdout)
+
+    def allocs(err: str) -> int:
+        m = re.search(r"leaked in (\d+) allocation", err)
+        return int(m.group(1)) if m else 0
+
+    named = [b for b in re.split(r"\n(?=(?:Direct|Indirect) leak of)", traced.stderr)
+             if re.match(r"(Direct|Indirect) leak of", b) and "_native.c" in b]
+    grown = allocs(r.stderr) - allocs(base.stderr)
+    leaks = len(named) + (grown > 50)
+    errs = base.stderr + traced.stderr + r.stderr
+    asan = errs.count("ERROR: AddressSanitizer")
+    ubsan = errs.count("runtime error:")
+    for block in named[:3]:
+        print(block[:1500], file=sys.stderr)
+    if asan or ubsan:
+        print(errs[-4000:], file=sys.stderr)
+    exits = {x.returncode for x in (base, traced, r)}
+    ok = exits <= {0, 23} and not (asan or ubsan or leaks)  # 23: the leak report of the interpreter's own
+    print(f"RESULT | native fuzz under ASan+UBSan: memory errors, UB, leaks | {asan}, {ubsan}, {leaks} "
+          f"(leaked allocations {allocs(r.stderr)} vs {allocs(base.stderr)} for 100 inputs; "
+          f"{len(named)} naming _native.c) | 0, 0, 0 | {'met' if ok else 'NOT met'}")
+    print(f"RESULT | native fuzz under ASan+UBSan: time | {dt:.0f} s | info | met")
+    if not exits <= {0, 23}:
+        print(f"child exit status {sorted(exits)}", file=sys.stderr)
+    return 0 if ok else 1
+
+
 def rss_kib() -> int:
     with open("/proc/self/status") as f:
         for ln in f:
@@ -107,7 +277,23 @@ def main() -> int:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--inputs", type=int, default=100_000)
     ap.add_argument("--seed", type=int, default=1)
+    ap.add_argument("--native-diff", action="store_true", help="compare the C core with the pure path")
+    ap.add_argument("--asan", action="store_true", help="--native-diff with a sanitizer build of the core")
+    ap.add_argument("--core", help=argparse.SUPPRESS)  # path of the core to load (used by --asan)
     args = ap.parse_args()
+    if args.asan:
+        return asan_run(args.inputs, args.seed)
+    if args.core:
+        load_core(args.core)
+    if args.native_diff:
+        t0 = time.perf_counter()
+        n, bad, examples = native_diff(args.inputs, args.seed)
+        dt = time.perf_counter() - t0
+        for e in examples:
+            print("disagreement:", e, file=sys.stderr)
+        print(f"RESULT | native fuzz inputs | {n:,} in {dt:.0f} s | >= 1,000,000 | {'met' if n >= 1e6 else 'NOT met'}")
+        print(f"RESULT | native fuzz disagreements | {bad} | 0 | {'met' if bad == 0 else 'NOT met'}")
+        return 1 if bad else 0
     rng = random.Random(args.seed)
     base = BASE + sim_base()
     p = Pipeline(source="fuzz")

@@ -11,8 +11,8 @@ import sys
 from pathlib import Path
 
 HERE = Path(__file__).resolve().parent
-SCRIPTS = ["bench_decode.py", "bench_replay.py", "bench_day.py", "bench_memory.py", "bench_startup.py",
-           "bench_scaling.py", "bench_ui.py", "bench_load.py"]
+SCRIPTS = ["bench_decode.py", "bench_replay.py", "bench_native.py", "bench_day.py", "bench_memory.py", "bench_startup.py",
+           "bench_scaling.py", "bench_ui.py", "bench_load.py", "bench_gc.py"]
 
 
 def main() -> int:

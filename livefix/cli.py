@@ -14,6 +14,7 @@ COMMANDS: dict[str, tuple[str, str]] = {
     "report": ("livefix.commands.report", "analyse a recording or NMEA log and write JSON/Markdown/HTML"),
     "record": ("livefix.commands.record", "record a source losslessly to a file"),
     "replay": ("livefix.commands.replay", "replay a recording through the pipeline"),
+    "compare": ("livefix.commands.compare", "put sessions from candidate antenna spots side by side"),
     "simulate": ("livefix.commands.simulate", "run the built-in simulated receiver"),
 }
 

@@ -25,18 +25,40 @@ Rules (consistent for every split):
 
 from __future__ import annotations
 
+import os
 import re
 from dataclasses import dataclass
+from types import ModuleType
 
 from livefix.binframe import CHECK_BUDGET, FRAME_MAX, SYNC, checksum_ok, frame_size
 
-# Real receivers exceed the nominal 82 characters (shared/REFERENCES.md); 512 leaves ample room
+# Real receivers exceed the nominal 82 characters (docs/sources.md#sentence-length); 512 leaves ample room
 # for long proprietary sentences while bounding the buffer (common practice).
 MAX_LEN = 512
 
 _START = re.compile(b"[$!" + SYNC + b"]")  # a sentence, or a binary frame's first byte
 _IN_LINE = re.compile(b"[\r\n$" + SYNC + b"]")
 _OUTSIDE, _INSIDE, _SKIP = 0, 1, 2
+
+
+def built_core() -> ModuleType | None:
+    """The C core (livefix/_native.c) when it was built, else None; tests compare it with the pure
+    path even under LIVEFIX_PURE=1 by asking for it explicitly (native=True)."""
+    try:
+        from livefix import _native
+    except ImportError:
+        return None
+    return _native
+
+
+def native_core() -> ModuleType | None:
+    """The one switch for the default path: the C core when it was built and LIVEFIX_PURE is not
+    "1", else None (the pure-Python path, which is the reference)."""
+    return None if os.environ.get("LIVEFIX_PURE") == "1" else built_core()
+
+
+_CORE = built_core()
+_NATIVE = native_core()
 
 
 @dataclass(slots=True)
@@ -52,8 +74,15 @@ class FrameCounters:
 class Framer:
     """Feed bytes, get sentences. Never blocks, never raises on content."""
 
-    def __init__(self, max_len: int = MAX_LEN) -> None:
+    def __init__(self, max_len: int = MAX_LEN, native: bool | None = None) -> None:
+        """native: split plain blocks with the C core (None: as native_core() says); it hands
+        anything unusual back to the scanner below, so the sentences are the same."""
         self.max_len = max_len
+        if native is None:
+            native = _NATIVE is not None
+        elif native and _CORE is None:
+            raise RuntimeError("the C core livefix._native is not built")
+        self._split = _CORE.split_block if native and _CORE is not None else None
         self.counters = FrameCounters()
         self._buf = bytearray()
         self._pos = 0  # next byte of _buf not yet scanned
@@ -80,7 +109,8 @@ class Framer:
     def feed(self, data: bytes) -> list[bytes]:
         c = self.counters
         if data.__class__ is bytes and not self._buf and data[-2:] == b"\r\n" and self._state == _OUTSIDE:
-            lines = self._clean_block(data)
+            split = self._split
+            lines = split(data, self.max_len) if split is not None else self._clean_block(data)
             if lines is not None:
                 c.bytes += len(data)
                 c.lines += len(lines)

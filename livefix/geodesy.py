@@ -1,8 +1,8 @@
 """WGS 84 geodesy and satellite geometry shared by the simulator and the analysis.
 
-Constants: NIMA TR8350.2, 3rd edition (2000, amended 2004), Table 3.1.
-Geodetic -> ECEF is closed form; ECEF -> geodetic uses Bowring's method with two refinements,
-well below a millimetre for terrestrial heights.
+Constants: NIMA TR8350.2, 3rd edition (2000, amended 2004), Table 3.1 (docs/sources.md#wgs-84).
+Geodetic -> ECEF is closed form; ECEF -> geodetic uses a closed-form 1976 estimate with two refinements
+(docs/sources.md#ecef-to-geodetic), well below a millimetre for terrestrial heights.
 """
 
 from __future__ import annotations

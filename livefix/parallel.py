@@ -10,8 +10,9 @@ Wire format (pickled batches, length-prefixed, over two OS pipes): epochs travel
 their fields and are rebuilt in the child (pickling the slots dataclass costs far more). An epoch's
 satellite tuple is usually the very same object for many epochs; it is sent once with a small id
 and the child hands out one rebuilt tuple per id, so identity-based shortcuts in the statistics
-behave as in one process (rebuilt tuples carry no state-model token, `sats_token` is None there, so
-a statistic that skips work by token recomputes the same values). Events are rare and go as they are.
+behave as in one process. Events are rare and go as they are. The proxy is a
+livefix.contracts.Analysis (the feeding calls and the snapshot), not a SteerableAnalysis: batch runs
+never reset or move the reference.
 
 Robustness: the front's pipe ends are non-blocking and every wait is a select() with a timeout that
 also checks the child is alive, so a crashed, killed or stuck child gives AnalysisProcessError (one
@@ -24,7 +25,6 @@ may hold source threads or locks).
 from __future__ import annotations
 
 import dataclasses
-import gc
 import os
 import pickle
 import select
@@ -40,6 +40,7 @@ from pathlib import Path
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.contracts import Analysis
 from livefix.state.epoch import Epoch, SatObs
 
 BATCH_EPOCHS = 256  # epochs per message: large enough to amortise pickling, small enough to stream
@@ -100,7 +101,7 @@ def encode(calls: list, table: dict[int, tuple[tuple, int]], next_id: list[int])
 class Replayer:
     """Feeds decoded records into an analyzer in order (the child's half of `encode`)."""
 
-    def __init__(self, analyzer: Any) -> None:
+    def __init__(self, analyzer: Analysis) -> None:
         self.analyzer = analyzer
         self._sats: dict[int, tuple[SatObs, ...]] = {}
         chunk, rejected, event, epoch = analyzer.on_chunk, analyzer.on_rejected, analyzer.on_event, analyzer.on_epoch
@@ -150,9 +151,6 @@ def serve(rfd: int, wfd: int) -> int:
     """The analysis process: config, then batches and snapshot requests until stop or end of input."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the front handles Ctrl-C and stops us
     from livefix.analysis.engine import Analyzer
-    from livefix.pipeline import BATCH_GC_THRESHOLD
-
-    gc.set_threshold(*BATCH_GC_THRESHOLD)  # this process only ever runs a batch
 
     replay: Replayer | None = None
     try:

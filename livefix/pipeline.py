@@ -14,18 +14,18 @@ Stage interfaces it relies on:
                             on_rejected(Rejected, mono, wall), finish() -> list[Epoch],
                             drain_events() -> list[Event], sky() -> tuple[SatObs, ...],
                             link -> (state, since_mono, detail), last_epoch -> Epoch | None
-  livefix.analysis.engine.Analyzer (see livefix.analysis)
+  the analysis: livefix.contracts.Analysis (feeding calls and snapshot; the Analyzer, or the
+                            two-process stand-in of livefix.parallel), SteerableAnalysis for the
+                            live controls (reset, reference point)
 """
 
 from __future__ import annotations
 
-import gc
-from collections.abc import Iterator
-from contextlib import contextmanager
 from dataclasses import dataclass, field
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.contracts import Analysis, SteerableAnalysis
 from livefix.items import Chunk, Item, LinkEvent, Marker
 from livefix.state.epoch import Epoch, SatObs
 
@@ -76,10 +76,11 @@ class Snapshot:
 
 
 class Pipeline:
-    def __init__(self, config: AnalysisConfig | None = None, source: str = "", analyzer: Any = None) -> None:
-        """analyzer: anything with the Analyzer's on_chunk, on_rejected, on_event, on_epoch and
-        snapshot(counters) (e.g. livefix.parallel's proxy for an analysis process); default a real
-        Analyzer built from config. The calls it receives are the same either way."""
+    def __init__(self, config: AnalysisConfig | None = None, source: str = "",
+                 analyzer: Analysis | None = None) -> None:
+        """analyzer: any livefix.contracts.Analysis (e.g. livefix.parallel's proxy for an analysis
+        process); default a real Analyzer built from config. The calls it receives are the same
+        either way."""
         from livefix.analysis.engine import Analyzer
         from livefix.decode.decoder import Decoder
         from livefix.framing import Framer
@@ -89,7 +90,7 @@ class Pipeline:
         self.framer = Framer()
         self.decoder = Decoder()
         self.state = StateModel()
-        self.analyzer = Analyzer(config or AnalysisConfig()) if analyzer is None else analyzer
+        self.analyzer: Analysis = Analyzer(config or AnalysisConfig()) if analyzer is None else analyzer
         self._rejects: list[str] = []
         self._seq = 0
         self._mono = 0.0
@@ -152,15 +153,21 @@ class Pipeline:
         self.finished = True
 
     # -- controls (used by the session, between items, on the analysis thread) ----------------
+    def _steerable(self) -> SteerableAnalysis:
+        a = self.analyzer
+        if not isinstance(a, SteerableAnalysis):
+            raise TypeError(f"{type(a).__name__} cannot be steered (reset, reference): a batch analysis")
+        return a
+
     def reset_analysis(self) -> None:
         """Fresh statistics; framing, decoding and receiver state are kept."""
-        self.analyzer.reset()
+        self._steerable().reset()
 
     def set_reference(self, lat: float, lon: float, h: float) -> None:
-        self.analyzer.set_reference(lat, lon, h)
+        self._steerable().set_reference(lat, lon, h)
 
     def set_reference_to_mean(self) -> tuple[float, float, float] | None:
-        return self.analyzer.reference_to_mean()
+        return self._steerable().reference_to_mean()
 
     def note(self, kind: str, text: str, data: dict[str, Any] | None = None) -> None:
         """An event from outside the stream (recording started, ...), at the current stream time."""
@@ -187,27 +194,6 @@ class Pipeline:
                         sky=self.state.sky(), counters=counters,
                         analysis=self.analyzer.snapshot(counters), recording=recording,
                         recording_error=recording_error, finished=self.finished)
-
-
-# A batch run (a report, a check of files, the analysis process) collects young objects every
-# 100,000 net allocations instead of CPython's 700. The pipeline makes no reference cycles once its
-# modules are imported (tests/test_pipeline.py finds none in a second pass over each demo recording),
-# so frequent collections only walk live objects. Measured (bench/RESULTS.md): 1.8 % fewer
-# instructions for a 1 h, 10 Hz report (callgrind); the gc callbacks timed 9 % of a 6 h report
-# inside the collector, but interleaved day runs show no wall-time change above the host's noise.
-# Kept on, not disabled, so a cycle made elsewhere is still freed.
-BATCH_GC_THRESHOLD = (100_000, 20, 100)
-
-
-@contextmanager
-def batch_gc() -> Iterator[None]:
-    """Sparse garbage collection for the duration; the previous thresholds come back after."""
-    old = gc.get_threshold()
-    gc.set_threshold(*BATCH_GC_THRESHOLD)
-    try:
-        yield
-    finally:
-        gc.set_threshold(*old)
 
 
 def run_items(items, config: AnalysisConfig | None = None, source: str = "") -> Pipeline:  # noqa: ANN001

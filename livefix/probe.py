@@ -13,6 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+from livefix.contracts import Probed, Source
 from livefix.sources.base import Chunk, SourceError
 
 FIRST_CONTACT_S = 4.0  # one start-up attempt, name resolution included (README: "exit 2 within 5 s")
@@ -25,14 +26,13 @@ _TEXT = frozenset(range(0x20, 0x7F)) | {0x09, 0x0A, 0x0D}
 WAIT_HINT = "--wait keeps trying"
 
 
-def first_contact(src: Any, *, wait: bool = False, timeout: float = FIRST_CONTACT_S) -> None:
+def first_contact(src: Source, *, wait: bool = False, timeout: float = FIRST_CONTACT_S) -> None:
     """Raise SourceError (one line) when a live source cannot be reached now and the user did not
-    ask to wait. Sources without a `first_contact` method (files, stdin, sim) always pass."""
-    fn = getattr(src, "first_contact", None)
-    if wait or fn is None:
+    ask to wait. Sources that are not a live link (files, stdin, sim: not `Probed`) always pass."""
+    if wait or not isinstance(src, Probed):
         return
     try:
-        fn(timeout)
+        src.first_contact(timeout)
     except SourceError as exc:
         src.close()
         raise SourceError(f"{exc}; {WAIT_HINT}") from None
@@ -122,12 +122,13 @@ def scan_file(path: str) -> FileScan:
     return scan
 
 
-def check_file(src: Any) -> None:
+def check_file(src: Source) -> None:
     """Raise SourceError when a file source holds no NMEA sentence; other sources pass."""
-    path = getattr(src, "path", None)
-    if path is None or not getattr(src, "finite", False) or not hasattr(src, "recording"):
+    from livefix.sources.file import FileSource
+
+    if not isinstance(src, FileSource):
         return
-    problem = scan_file(str(path)).problem()
+    problem = scan_file(str(src.path)).problem()
     if problem:
         src.close()
         raise SourceError(problem)
@@ -173,10 +174,9 @@ class NoNmeaWatch:
         return f"{nbytes} bytes in {span:.0f} s but no NMEA sentence{kind}: {self.hint}"
 
 
-def no_nmea_watch(src: Any) -> NoNmeaWatch | None:
+def no_nmea_watch(src: Source) -> NoNmeaWatch | None:
     """The watch for a live source that can deliver foreign bytes (serial, TCP), else None."""
-    fn = getattr(src, "no_nmea_rule", None)
-    if fn is None:
+    if not isinstance(src, Probed):
         return None
-    limit_s, hint = fn(NO_NMEA_S)
+    limit_s, hint = src.no_nmea_rule(NO_NMEA_S)
     return NoNmeaWatch(limit_s, hint)

@@ -18,6 +18,7 @@ from pathlib import Path
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.contracts import ItemSink, Paced, Seekable
 from livefix.pipeline import Pipeline, Snapshot
 from livefix.sources.base import Chunk, Link, LinkEvent, Marker, Source
 
@@ -86,9 +87,10 @@ class Session:
                  record_path: str | Path | None = None, notes: str = "", publish_hz: float = 5.0,
                  on_snapshot: Callable[[Snapshot], None] | None = None, compress: str | None = None,
                  rotate_s: float | None = None, *, queue_items: int = QUEUE_ITEMS,
-                 block_s: float = BLOCK_S) -> None:
+                 block_s: float = BLOCK_S, site: dict[str, Any] | None = None) -> None:
         self.source = source
         self.notes, self.compress, self.rotate_s = notes, compress, rotate_s
+        self.site = site  # livefix.site JSON, kept in the recording header
         self._config = config
         self.pipeline = Pipeline(config, source.name)
         self.period = 1.0 / publish_hz if publish_hz > 0 else 0.0
@@ -103,7 +105,7 @@ class Session:
         self._done = threading.Event()  # finite source fully processed
         self._finished = threading.Event()  # analysis thread has ended
         self._lock = threading.Lock()  # recorder swap + (record, enqueue) order
-        self._recorder: Any = None
+        self._recorder: ItemSink | None = None
         self._rec_path: str | None = None
         self._rec_error_noted: str | None = None  # last recording error put in the event list
         self._rec_error: str | None = None
@@ -150,13 +152,14 @@ class Session:
     def _read(self) -> None:
         feed, stop = self._feed, self._stop
         natural = False
-        generation = getattr(self.source, "generation", 0)
+        src = self.source
+        seekable = src if isinstance(src, Seekable) else None
+        generation = seekable.generation if seekable is not None else 0
         try:
-            for item in self.source.items(stop):
+            for item in src.items(stop):
                 self._last_times = (item.mono, item.wall)
-                g = getattr(self.source, "generation", 0)
-                if g != generation:  # a replay sought backwards: its analysis starts afresh
-                    generation = g
+                if seekable is not None and seekable.generation != generation:
+                    generation = seekable.generation  # a replay sought backwards: analysis starts afresh
                     self._control(self._restart)
                 if not feed.has_room():  # analysis behind: wait a little before shedding
                     until = time.monotonic() + self.block_s
@@ -269,7 +272,7 @@ class Session:
         from livefix.record.writer import Recorder
 
         rec = Recorder(path, source=self.source.name, notes=self.notes, compress=self.compress,
-                       rotate_s=self.rotate_s)
+                       rotate_s=self.rotate_s, site=self.site)
         with self._lock:
             old, self._recorder = self._recorder, rec
             self._rec_path, self._rec_error = str(rec.path), None
@@ -320,33 +323,31 @@ class Session:
     def reset_statistics(self) -> None:
         self._control(lambda p: p.reset_analysis())
 
-    def _passthrough(self, name: str, *args: Any) -> bool:
-        fn = getattr(self.source, name, None)
-        if fn is None:
+    def _steer(self, capability: type, act: Callable[[Any], None]) -> bool:
+        """Apply a replay control when the source has the capability (livefix.contracts)."""
+        src = self.source
+        if not isinstance(src, capability):
             return False
-        fn(*args)
+        act(src)
         return True
 
     def pause(self) -> bool:
         """Pause a replay; False when the source cannot pause (live sources)."""
-        return self._passthrough("pause")
+        return self._steer(Paced, lambda src: src.pause())
 
     def resume(self) -> bool:
-        return self._passthrough("resume")
+        return self._steer(Paced, lambda src: src.resume())
 
     def set_speed(self, factor: float | None) -> bool:
         """Replay speed (None = as fast as possible); False when the source has no speed."""
-        if not hasattr(self.source, "speed"):
-            return False
-        self.source.speed = factor  # type: ignore[attr-defined]
-        return True
+        return self._steer(Paced, lambda src: setattr(src, "speed", factor))
 
     def seek(self, offset_s: float) -> bool:
         """Skip forward/back by offset_s seconds of the recording (replays only)."""
-        return self._passthrough("seek", offset_s)
+        return self._steer(Seekable, lambda src: src.seek(offset_s))
 
     def seek_to(self, position_s: float) -> bool:
-        return self._passthrough("seek_to", position_s)
+        return self._steer(Seekable, lambda src: src.seek_to(position_s))
 
     def write(self, data: bytes) -> None:
         """Send bytes to the receiver (SourceError when the source cannot send)."""

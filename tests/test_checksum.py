@@ -12,13 +12,13 @@ from livefix.checksum import checksum_hex, sentence_ok, with_checksum, xor_check
 from livefix.sim import nmea
 from livefix.sources.link import nmea_ok
 
-# Public example sentence with its published checksum (/work/shared/REFERENCES.md)
+# Public example sentence with its published checksum (docs/sources.md#example-sentences)
 GGA = "$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47"
 
 
 def test_published_example() -> None:
     body = GGA[1:GGA.index("*")]
-    assert checksum_hex(body) == "47"  # REFERENCES.md: the example's stated checksum
+    assert checksum_hex(body) == "47"  # docs/sources.md#example-sentences: the example's stated checksum
     assert with_checksum(body) == GGA
     assert sentence_ok(GGA.encode() + b"\r\n") and nmea_ok(GGA.encode())
 

@@ -20,11 +20,13 @@ RANKS: dict[str, int] = {
     # 0: shared item types and utilities every stage may import
     "livefix": 0,  # the package itself (__version__)
     "livefix.items": 0,
+    "livefix.contracts": 0,
     "livefix.timefmt": 0,
     "livefix.dates": 0,
     "livefix.geodesy": 0,
     "livefix.checksum": 0,
     "livefix.refpoint": 0,
+    "livefix.site": 0,
     "livefix.faults": 0,
     # 1: the simulated receiver, a maker of bytes below the sources
     "livefix.sim": 1,

@@ -10,7 +10,7 @@ from pynmeagps import NMEAReader, calc_checksum
 from livefix.pipeline import Pipeline, run_items
 from livefix.sources.base import Chunk, Link, LinkEvent, Marker
 
-# Public example sentences (D. DePriest's NMEA data reference page, see shared/REFERENCES.md).
+# Public example sentences (docs/sources.md#example-sentences).
 PUBLIC = [b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47",
           b"$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A",
           b"$GPGSA,A,3,04,05,,09,12,,,24,,,,,2.5,1.3,2.1*39",
@@ -108,45 +108,106 @@ def test_leap_second_line_through_real_decoder() -> None:
     assert p.state.epochs >= 2
 
 
-def test_no_reference_cycles_once_warm() -> None:
-    """Batch runs collect garbage sparsely (livefix.pipeline.BATCH_GC_THRESHOLD), which is only safe
-    while the pipeline leaves no cycles behind: after one warm-up pass (lazy imports build their own),
-    a second pass over each demo recording with the collector off leaves nothing for it to free."""
-    import gc
-    import threading
+# -- caches belong to the pipeline instance -----------------------------------------------------
+def _demo_items(name: str, limit: int) -> list:
+    import itertools
     from pathlib import Path
 
-    from livefix.sources import open_source
+    from livefix.record.reader import RecordingReader
 
-    def one_pass(path: Path) -> None:
-        src = open_source(str(path), speed=None)
-        p = Pipeline(None, src.name)
-        for item in src.items(threading.Event()):
-            p.feed(item)
-        src.close()
-        p.finish()
-        p.snapshot()
-
-    recordings = sorted((Path(__file__).resolve().parents[1] / "recordings").glob("*.lfr"))
-    assert len(recordings) >= 3
-    for path in recordings:
-        one_pass(path)
-        gc.collect()
-        gc.disable()
-        try:
-            one_pass(path)
-            found = gc.collect()
-        finally:
-            gc.enable()
-        assert found == 0, (path.name, found)
+    path = Path(__file__).resolve().parents[1] / "recordings" / name
+    return list(itertools.islice(RecordingReader(str(path)).items(), limit))
 
 
-def test_batch_gc_restores_thresholds() -> None:
+def _module_state() -> dict[tuple[str, str], tuple]:
+    """Every module-level value of livefix that is not code: its identity and, for a container,
+    the identities of its contents (a memo that grows, is cleared or is rebound shows up)."""
+    import sys
+    import types
+
+    code = (types.ModuleType, types.FunctionType, types.BuiltinFunctionType, type)
+    out: dict[tuple[str, str], tuple] = {}
+    for mod_name, mod in list(sys.modules.items()):
+        if not mod_name.startswith("livefix") or mod is None:
+            continue
+        for k, v in vars(mod).items():
+            if isinstance(v, code) or k.startswith("__"):
+                continue
+            if isinstance(v, dict):
+                inner: tuple = tuple((id(a), id(b)) for a, b in v.items())
+            elif isinstance(v, (list, set, bytearray)):
+                inner = tuple(id(a) for a in v) if not isinstance(v, bytearray) else (bytes(v),)
+            else:
+                inner = ()
+            out[(mod_name, k)] = (id(v), inner)
+    return out
+
+
+def test_a_run_leaves_every_module_level_value_alone() -> None:
+    """Memo caches live in the objects a Pipeline creates (state model, analyzer), never in a module:
+    a warm pipeline run changes no module-level value of livefix (common practice: two pipelines in
+    one process must share no mutable state). A module-global memo (a dict that fills, a tuple that
+    is rebound) fails this."""
+    items = _demo_items("building-5min.lfr", 1500)
+    run_items(items)  # warm-up: lazy imports bind their module values once
+    before = _module_state()
+    p = run_items(items)
+    p.snapshot()
+    after = _module_state()
+    changed = sorted(k for k in before if k in after and before[k] != after[k])
+    assert changed == []
+    assert sorted(set(after) - set(before)) == []  # nothing new bound either
+    assert p.analyzer.internal_errors == 0
+
+
+def test_two_pipelines_interleaved_give_what_each_gives_alone() -> None:
+    """Two pipelines fed different recordings item by item, alternately, end with the very snapshot
+    each gives when run alone (common practice: instances that share no cache cannot disturb each
+    other); and no mutable container is reachable from both."""
     import gc
+    import itertools
+    import json
+    import types
 
-    from livefix.pipeline import BATCH_GC_THRESHOLD, batch_gc
+    a_items = _demo_items("building-5min.lfr", 2500)
+    b_items = _demo_items("rooftop-5min.lfr", 2500)
 
-    before = gc.get_threshold()
-    with batch_gc():
-        assert gc.get_threshold() == BATCH_GC_THRESHOLD
-    assert gc.get_threshold() == before
+    def figures(p: Pipeline) -> str:
+        assert p.analyzer.internal_errors == 0 and p.counters().internal_errors == 0
+        return json.dumps(p.analyzer.snapshot(p.counters()), sort_keys=True) + repr(p.state.sky())
+
+    alone = [figures(run_items(a_items)), figures(run_items(b_items))]
+    pa, pb = Pipeline(), Pipeline()
+    for x, y in itertools.zip_longest(a_items, b_items):
+        if x is not None:
+            pa.feed(x)
+        if y is not None:
+            pb.feed(y)
+    pa.finish()
+    pb.finish()
+    assert [figures(pa), figures(pb)] == alone
+    assert alone[0] != alone[1]  # the two inputs really differ
+
+    tables = {ident for ident, _ in _module_state().values()}  # module constants (checked above)
+
+    def mutable_reach(root: object) -> dict[int, object]:
+        """Mutable containers reachable from root through instances and containers (not through
+        code, classes, modules or module-level tables, which are shared by design and which the
+        test above keeps unchanged)."""
+        stop = (types.ModuleType, types.FunctionType, types.BuiltinFunctionType, type, types.CodeType)
+        seen: set[int] = set(tables)
+        found: dict[int, object] = {}
+        todo = [root]
+        while todo:
+            o = todo.pop()
+            if id(o) in seen or isinstance(o, stop):
+                continue
+            seen.add(id(o))
+            if isinstance(o, (dict, list, set, bytearray)):
+                found[id(o)] = o
+            todo.extend(gc.get_referents(o))
+        return found
+
+    ra, rb = mutable_reach(pa), mutable_reach(pb)
+    shared = [type(ra[i]).__name__ for i in set(ra) & set(rb)]
+    assert shared == []

@@ -36,7 +36,12 @@ Snapshot keys (all documented in README "Report JSON"); times ISO 8601 UTC, dist
             honesty {lat_ratio, lon_ratio, h_ratio, ure_m}, samples {e: [...], n: [...], u: [...]}
   motion:   state "static"|"moving"|"mixed", moving_share, moves, rule {speed_mps, spread_m, ...}
   dop:      reported {gdop, pdop, hdop, vdop}, computed {gdop, pdop, hdop, vdop, tdop},
-            current {reported: {...}, computed: {...}}, disagreements
+            p95 {reported: {...}, computed: {...}}, current {reported: {...}, computed: {...}},
+            disagreements
+  session:  start_utc, end_utc, duration_s, date_known, start_host, end_host, host_minus_utc_s
+            {start, end}, datum {local, reference, epochs, seen} (DTM; null when never sent),
+            median {by_fix {fix name: {n, lat, lon, h, alt_msl, sep, resolution_m}}}
+  satellites: epochs, by_system {G|R|E|C|...|all: {in_view|tracked|used: {median, min, max}}}
   signal:   cn0_mean_dbhz, top4_mean_dbhz, by_system {G: mean,...}, by_elevation [{from, to, mean}],
             curve {a, b} (expected C/N0 vs elevation), weak [{sat, elev, azim, cn0, expected}],
             interference [{start, duration_s, drop_db}], weak_sectors [{az_from, az_to, el_from, el_to,
@@ -44,6 +49,7 @@ Snapshot keys (all documented in README "Report JSON"); times ISO 8601 UTC, dist
   sky:      obstructed [{az_from, az_to, below_el}], grid {az_step, el_step, tracked[[..]],
             untracked[[..]], cn0[[..]]}, clear_above_deg, visible_share
   trend:    t [...], h_err_m [...], cn0_mean [...], sats_used [...]   (decimated, <= 600 points)
+            lat/lon/h [...] (fixed epochs), sky_tracks {sample_s, sats [{sat, system, az, el, cn0}]}
   events:   [{time, kind, text, ...}]
 """
 

@@ -1,8 +1,8 @@
 """Overlapping Allan deviation of position series.
 
 Positions are treated like fractional-frequency samples (each value is an average over its
-sample interval), the usual way GNSS position noise is typed with Allan variance (Niu et al.,
-GPS Solutions 2014): white noise falls as tau^-1/2, random walk rises as tau^+1/2 (IEEE 1139,
+sample interval), the usual way GNSS position noise is typed with Allan variance (GPS Solutions 18,
+2014; docs/sources.md#allan-deviation): white noise falls as tau^-1/2, random walk rises as tau^+1/2 (IEEE 1139,
 from memory). Formula: NIST SP 1065 eq. (11) on the integrated series x = [0, cumsum(y) * tau0].
 The input comes from a PairHistory: evenly spaced at tau0 = epoch interval * decimation factor,
 with gaps bridged (samples are taken as consecutive), which is stated in the snapshot.

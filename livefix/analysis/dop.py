@@ -26,7 +26,6 @@ from typing import Any
 from livefix.analysis.streaming import LogHistogram
 from livefix.geodesy import dop as geometry_dop
 from livefix.state.epoch import Epoch
-from livefix.state.sky import sats_token
 
 KEYS = ("gdop", "pdop", "hdop", "vdop", "tdop")
 REL_TOL = 0.20
@@ -76,7 +75,6 @@ class DopStats:
         self.disagreeing = False
         self._cache_key: tuple | None = None
         self._sats: tuple | None = None
-        self._tok: object | None = None
         self._used: tuple | None = None
         self._geo: tuple = ()
         self._rep_obj: tuple = (object(), object(), object())  # the reported floats, by identity
@@ -91,10 +89,8 @@ class DopStats:
     def on_epoch(self, ep: Epoch) -> None:
         sats, used = ep.sats, ep.used_prns
         if sats is not self._sats or (used is not self._used and used != self._used):  # reused tuples
-            tok = sats_token(sats)  # or rebuilt with only new times: same geometry
-            if tok is None or tok is not self._tok or used != self._used:
-                self._geo = used_geometry(ep)
-            self._sats, self._used, self._tok = sats, used, tok
+            self._geo = used_geometry(ep)  # the state model hands out a new tuple only on a change
+            self._sats, self._used = sats, used
             self.current_used_listed = len({(s.system, s.prn) for s in sats if s.used} | set(used))
             if self._geo != self._cache_key:  # az/el are whole degrees and change slowly: cache
                 self._new_geometry(self._geo)
@@ -190,15 +186,19 @@ class DopStats:
             return {k: (None if d is None or d.get(k) is None else round(d[k], 3)) for k in keys}
 
         single = self.clock_model == "single"
-        def median(h: LogHistogram) -> float | None:  # 3 decimals: a DOP is given to 0.1 or 0.01
-            q = h.quantile(0.5)
+        def median(h: LogHistogram, p: float = 0.5) -> float | None:  # 3 decimals: a DOP is given to 0.1 or 0.01
+            q = h.quantile(p)
             return None if q is None else round(q, 3)
 
         per_system = {k: median(h) for k, h in self.hist_calc.items()}
         one_clock = {k: median(h) for k, h in self.hist_single.items()}
+        calc95 = self.hist_single if single else self.hist_calc
         return {
             "reported": {k: median(h) for k, h in self.hist_rep.items()},
             "computed": one_clock if single else per_system,
+            # 95th percentiles over the epochs (LogHistogram bins: within about 0.25 %)
+            "p95": {"reported": {k: median(h, 0.95) for k, h in self.hist_rep.items()},
+                    "computed": {k: median(h, 0.95) for k, h in calc95.items()}},
             "clock_model": self.clock_model,
             "clock_model_votes": dict(self.votes),
             "computed_per_system_clock": per_system,

@@ -13,14 +13,19 @@ from collections.abc import Callable
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.analysis.counts import SatCounts
 from livefix.analysis.dop import DopStats
 from livefix.analysis.events import EventLog, jsonable
 from livefix.analysis.fixes import FixStats
+from livefix.analysis.geo import EcefMemo
 from livefix.analysis.integrity import StreamIntegrity
+from livefix.analysis.median import MedianPosition
 from livefix.analysis.position import PositionStats
+from livefix.analysis.receiver import ReceiverInfo
 from livefix.analysis.reflectors import ReflectionStats
 from livefix.analysis.signal import SignalStats
 from livefix.analysis.sky import SkyMap
+from livefix.analysis.span import SessionSpan
 from livefix.analysis.trend import Trend
 from livefix.faults import log_internal
 from livefix.state.epoch import Epoch, Event
@@ -34,19 +39,23 @@ class Analyzer:
         self.config = config or AnalysisConfig()
         self._log = EventLog(max_events)
         cfg, emit = self.config, self._log.add
-        self.fix = FixStats(cfg, emit)
+        ecef = EcefMemo()  # the latest epoch's ECEF, shared by the stages that project it (per Analyzer)
+        self.fix = FixStats(cfg, emit, ecef)
         self.integrity = StreamIntegrity(cfg, emit, on_gap=self.fix.note_data_gap)  # a stall is a data gap
-        self.position = PositionStats(cfg, emit)
+        self.position = PositionStats(cfg, emit, ecef)
         self.dop = DopStats()
         self.signal = SignalStats(cfg, emit)
         self.sky = SkyMap(cfg)
         self.trend = Trend()
         self.reflection = ReflectionStats(cfg.reflection)
+        self.receiver = ReceiverInfo()  # what the receiver announces about itself (TXT)
+        self.span, self.median, self.counts = SessionSpan(), MedianPosition(), SatCounts()  # site record
         self._epoch_stages: tuple[Callable[[Epoch], None], ...] = (
             self.integrity.on_epoch, self.fix.on_epoch, self.position.on_epoch, self.dop.on_epoch,
-            self.signal.on_epoch, self.reflection.on_epoch)  # then sky (needs signal.active) and trend, in on_epoch
+            self.signal.on_epoch, self.reflection.on_epoch, self.span.on_epoch, self.median.on_epoch,
+            self.counts.on_epoch)  # then sky (needs signal.active) and trend, in on_epoch
         self._event_stages: tuple[Callable[[Event], None], ...] = (
-            self.integrity.on_event, self.fix.on_event, self.position.on_event)
+            self.integrity.on_event, self.fix.on_event, self.position.on_event, self.receiver.on_event)
         # per-chunk and per-refused-line calls go straight to their one stage (hot, unguarded as
         # before), unless a subclass overrides them
         if type(self).on_chunk is Analyzer.on_chunk:
@@ -95,8 +104,10 @@ class Analyzer:
     def _trend(self, ep: Epoch) -> None:
         trend = self.trend
         start = iso(ep.utc if ep.utc is not None else ep.wall) if trend.t0 is None else None
+        fixed = ep.quality > 0  # positions of fixed epochs only (the position plot over time)
         trend.add_values(ep.mono, start, self.position.h_error(), self.signal.cur_mean,
-                         self.dop.current_n or ep.num_sv)
+                         self.dop.current_n or ep.num_sv, ep.lat if fixed else None, ep.lon, ep.h)
+        trend.sky_tracks.add(ep.mono, ep.sats)
 
     def _fail(self, fn: Callable[..., Any], exc: Exception) -> None:
         self.internal_errors += 1
@@ -134,6 +145,9 @@ class Analyzer:
             "sky": self.sky.snapshot(),
             "trend": self.trend.snapshot(),
             "reflection": self.reflection.snapshot(),
+            "receiver": self.receiver.snapshot(),
+            "session": {**self.span.snapshot(), "median": self.median.snapshot()},
+            "satellites": self.counts.snapshot(),
             "events": self._log.to_json(),
             "events_dropped": self._log.dropped,
             # livefix's own errors, the analysis' and the decoder's, apart from bad input
@@ -146,7 +160,7 @@ class Analyzer:
         """Start the statistics afresh (the user reference, if any, is kept)."""
         ref = self.position.ref if self.position.ref_source == "user" else None
         for part in (self.integrity, self.fix, self.position, self.dop, self.signal, self.sky, self.trend,
-                     self.reflection, self._log):
+                     self.reflection, self._log, self.span, self.median, self.counts):
             part.reset()
         self.internal_errors = 0
         self.last_error = None

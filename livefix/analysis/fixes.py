@@ -38,7 +38,7 @@ from typing import Any
 from livefix.analysis import starts as start_rec
 from livefix.analysis.availability import DATA_GAP_MIN, RESTART, UNKNOWN, TimeBook
 from livefix.analysis.config import AnalysisConfig
-from livefix.analysis.geo import Projector
+from livefix.analysis.geo import EcefMemo, Projector
 from livefix.analysis.streaming import Timeline, num, valid_fix
 from livefix.geodesy import LocalFrame
 from livefix.state.epoch import FIX_NAMES, Epoch, Event
@@ -82,9 +82,11 @@ _NO_DATA_LINK = frozenset({"stalled", "lost", "reconnecting"})
 class FixStats:
     """Snapshot key "fix"; see livefix.analysis for the keys."""
 
-    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None]) -> None:
+    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
+                 ecef: EcefMemo | None = None) -> None:
         self.cfg = config
         self.emit = emit
+        self._ecef = EcefMemo() if ecef is None else ecef  # shared with the other stages by the Analyzer
         self.reset()
 
     def reset(self) -> None:
@@ -311,7 +313,7 @@ class FixStats:
         proj = self._proj
         if proj is None:
             self._frame = LocalFrame(lat, lon, h)
-            proj = self._proj = Projector(self._frame)
+            proj = self._proj = Projector(self._frame, self._ecef)
         e, n, _ = proj.enu(lat, lon, h)
         lf = self._last_fix
         rec = self._recent.get(name)

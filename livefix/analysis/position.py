@@ -36,7 +36,7 @@ import numpy as np
 
 from livefix.analysis.config import AnalysisConfig
 from livefix.analysis.convergence import Convergence, Target
-from livefix.analysis.geo import Projector
+from livefix.analysis.geo import EcefMemo, Projector
 from livefix.analysis.jumps import Jumps
 from livefix.analysis.motion import MotionDetector
 from livefix.analysis.position_figures import drift_figures, empty_figures
@@ -56,9 +56,11 @@ NAN = float("nan")
 class PositionStats:
     """Snapshot key "position" (and "motion" via `motion`); see livefix.analysis for the keys."""
 
-    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None]) -> None:
+    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
+                 ecef: EcefMemo | None = None) -> None:
         self.cfg = config
         self.emit = emit
+        self._ecef = EcefMemo() if ecef is None else ecef  # shared with the other stages by the Analyzer
         self._thr_h = dict(config.converge_h)
         self._thr_v = dict(config.converge_v)
         self.reset()
@@ -114,10 +116,10 @@ class PositionStats:
         self.ref = (float(lat), float(lon), float(h))
         self.ref_source = source
         self.ref_frame = LocalFrame(*self.ref)
-        self._ref_p = Projector(self.ref_frame)
+        self._ref_p = Projector(self.ref_frame, self._ecef)
         if self.anchor is None:
             self.anchor = LocalFrame(*self.ref)
-            self._anchor_p = Projector(self.anchor)
+            self._anchor_p = Projector(self.anchor, self._ecef)
         self.ref_enu = self.anchor.enu(*self.ref)
         self._auto = self._auto and source not in ("user", "session_mean")
         self._cache = None
@@ -159,7 +161,7 @@ class PositionStats:
         ap = self._anchor_p
         if ap is None:
             self.anchor = LocalFrame(lat, lon, hp)
-            ap = self._anchor_p = Projector(self.anchor)
+            ap = self._anchor_p = Projector(self.anchor, self._ecef)
         e, n, u = ap.enu(lat, lon, hp)
         moving = self.motion.update(t, e, n, ep.speed_mps)
         self._last = (lat, lon, hp)
@@ -174,7 +176,7 @@ class PositionStats:
                 ap = self._anchor_p
                 if ap is None:
                     self.anchor = LocalFrame(lat, lon, hp)
-                    ap = self._anchor_p = Projector(self.anchor)
+                    ap = self._anchor_p = Projector(self.anchor, self._ecef)
                 e, n, u = ap.enu(lat, lon, hp)
                 self._last = (lat, lon, hp)
         self._fixed_now = True
@@ -301,13 +303,16 @@ class PositionStats:
         out["allan"] = trk.allan_dev()
         out["honesty"] = trk.honesty()
         out["samples"] = self._samples(trk)
+        # the other fix types' recent epochs, fewer of them, for the report's per-fix-type scatter
+        out["samples_by_fix"] = {k: self._samples(t, MAX_SAMPLES // 4) for k, t in sorted(self.tracks.items())
+                                 if k != name and t.n}
         return out
 
-    def _samples(self, trk: Track) -> dict[str, Any]:
-        """Recent E/N/U about the reference (or the mean), decimated to <= MAX_SAMPLES points;
+    def _samples(self, trk: Track, cap: int = MAX_SAMPLES) -> dict[str, Any]:
+        """Recent E/N/U about the reference (or the mean), decimated to <= cap points;
         `mean_e`/`mean_n` place the scatter centre (where the CEP circles belong) in that frame."""
         a = trk.recent(self.cfg.window_s)
-        step = max(1, math.ceil(a.shape[0] / MAX_SAMPLES))
+        step = max(1, math.ceil(a.shape[0] / cap))
         a = a[::step]
         m = trk.mom.mean()
         c = self.ref_enu if self.ref_enu is not None else m

@@ -4,7 +4,7 @@ Why: below an antenna, a horizontal surface (roof, ground, water) reflects each 
 direct and reflected signals interfere. For a satellite rising or setting at low elevation e the
 detrended linear SNR oscillates against x = sin(e) at f = 2H/λ cycles per unit of x, so the
 height H of the antenna above the reflector is f·λ/2 (the GNSS-IR software paper, GPS Solutions
-22:80 (2018); shared/REFERENCES.md). The method here follows that paper: C/N0 to linear units,
+22:80 (2018); docs/sources.md#gnss-ir-method). The method here follows that paper: C/N0 to linear units,
 remove the direct-signal trend with a low-order polynomial in x, Lomb–Scargle periodogram over x
 (x is unevenly spaced), peak → H, quality control by peak amplitude, peak-to-noise ratio and arc
 length, and H limited to what the arc's sampling resolves (Nyquist).
@@ -28,7 +28,7 @@ C_LIGHT = 299_792_458.0  # m/s, exact (SI definition)
 # Carrier frequency (MHz) by (RINEX system letter, NMEA 4.10 GSV signal id). "" (no signal id, before
 # NMEA 4.10) is taken as the L1/E1/B1 band that such receivers track (common practice). Frequencies:
 # GPS L1 and Galileo E1 1575.42 MHz, BeiDou B1I 1561.098 MHz (interface specifications, see
-# shared/REFERENCES.md); L2C 1227.60, L5/E5a 1176.45, E5b 1207.14 MHz and the signal ids other than
+# docs/sources.md#carrier-frequencies); L2C 1227.60, L5/E5a 1176.45, E5b 1207.14 MHz and the signal ids other than
 # GPS 1 / Galileo 7 are from memory. GLONASS is left out on purpose: its FDMA channel (which sets
 # the carrier) is not in NMEA, so its wavelength is not known to better than 0.3 %.
 CARRIER_MHZ: dict[tuple[str, str], float] = {
@@ -85,9 +85,13 @@ class ArcFit:
 
     @property
     def mp_db(self) -> float:
-        """Multipath peak-to-peak in dB: 20·log10((1+a)/(1−a)) for the amplitude ratio a."""
-        a = min(self.amplitude, 0.99)
-        return 20.0 * math.log10((1.0 + a) / (1.0 - a))
+        return mp_db(self.amplitude)
+
+
+def mp_db(a: float) -> float:
+    """Multipath peak-to-peak in dB: 20·log10((1+a)/(1−a)) for the reflected/direct amplitude ratio a."""
+    a = min(a, 0.99)
+    return 20.0 * math.log10((1.0 + a) / (1.0 - a))
 
 
 MAX_POINTS = 600  # samples of an arc after averaging neighbours (a 1 Hz arc has ~2000-4000)
@@ -145,10 +149,7 @@ def estimate(sin_e: np.ndarray, cn0_db: np.ndarray, lam: float, cfg: ReflectionC
     if span < max(cfg.min_span_deg, 0.1):  # also keeps the search grids finite (a cell is λ/2 / Δsin e)
         return ArcFit(None, 0.0, 0.0, nyquist_height(x, lam), span, n, False, "short arc")
     whole_db = bool(np.all(c == np.round(c)))
-    if n > MAX_POINTS:  # mean of k neighbours in sin e: same spectrum noise floor, k times less work
-        starts = np.arange(0, n, math.ceil(n / MAX_POINTS))
-        counts = np.diff(np.append(starts, n))
-        x, c = np.add.reduceat(x, starts) / counts, np.add.reduceat(c, starts) / counts
+    x, c = _thinned(x, c)
     nyq = nyquist_height(x, lam)
     resid, _ = detrended(x, c, cfg.poly_order)
     h_hi = min(cfg.h_max_m, nyq)
@@ -175,6 +176,27 @@ def estimate(sin_e: np.ndarray, cn0_db: np.ndarray, lam: float, cfg: ReflectionC
            "peak at search edge" if k in (0, hs.size - 1) else
            "rounding alias" if whole_db and _rounding_alias(x, c, h, peak, lam) else "")
     return ArcFit(h, peak, pkn, nyq, span, n, why == "", why)
+
+
+def _thinned(x: np.ndarray, c: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """At most MAX_POINTS samples (x sorted): the mean of k neighbours in sin e keeps the spectrum's
+    noise floor and costs k times less."""
+    n = int(x.size)
+    if n <= MAX_POINTS:
+        return x, c
+    starts = np.arange(0, n, math.ceil(n / MAX_POINTS))
+    counts = np.diff(np.append(starts, n))
+    return np.add.reduceat(x, starts) / counts, np.add.reduceat(c, starts) / counts
+
+
+def spectrum(sin_e: np.ndarray, cn0_db: np.ndarray, lam: float, hs: np.ndarray,
+             cfg: ReflectionConfig) -> np.ndarray:
+    """Amplitude spectrum sqrt(4P/N) of one arc at the heights `hs`, prepared as `estimate` does
+    (for the report's periodogram figure: one fixed grid, so arcs can be averaged)."""
+    order = np.argsort(sin_e)
+    x, c = _thinned(np.asarray(sin_e, float)[order], np.asarray(cn0_db, float)[order])
+    resid, _ = detrended(x, c, cfg.poly_order)
+    return np.sqrt(4.0 * lomb_scargle(x, resid, 2.0 * hs / lam) / x.size)
 
 
 def _joint_refine(x: np.ndarray, cn0_db: np.ndarray, h0: float, half: float, lam: float,

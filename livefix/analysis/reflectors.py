@@ -9,7 +9,9 @@ installer knows where on the ground the reflection happens.
 
 Deterministic and bounded: arcs in progress are evaluated at fixed sample counts (CHECK_EVERY), never
 at snapshot time, so the snapshot of a stream does not depend on when it is taken; each sector keeps
-its newest KEEP_PER_SECTOR accepted arcs, refused arcs are only counted.
+its newest KEEP_PER_SECTOR accepted arcs, refused arcs are only counted. The periodogram figure
+gets a fixed-size summary: the mean amplitude spectrum of all accepted arcs on one height grid and
+the spectra of the newest KEEP_CURVES arcs.
 """
 
 from __future__ import annotations
@@ -21,7 +23,15 @@ from typing import Any
 import numpy as np
 
 from livefix.analysis.arcs import Arc, ArcCollector, split_monotonic
-from livefix.analysis.reflection import ArcFit, ReflectionConfig, estimate, fresnel_zone, wavelength
+from livefix.analysis.reflection import (
+    ArcFit,
+    ReflectionConfig,
+    estimate,
+    fresnel_zone,
+    mp_db,
+    spectrum,
+    wavelength,
+)
 from livefix.state.epoch import Epoch
 
 CHECK_EVERY = 300  # samples (~5 min at one a second) between estimates of an arc in progress
@@ -29,6 +39,8 @@ KEEP_PER_SECTOR = 256  # accepted arcs kept per sector for the medians (a week h
 KEEP_RECENT = 20  # accepted arcs listed in the snapshot
 FRESNEL_ELEVATIONS = (5.0, 10.0, 15.0)
 L1_LAMBDA = wavelength("G", "1") or 0.19029  # Fresnel zones are given for GPS L1 / Galileo E1
+SPECTRUM_STEP_M = 0.05  # height grid of the periodogram summary; a peak is ~0.3 m wide (λ/2 / Δsin e)
+KEEP_CURVES = 3  # newest accepted arcs whose spectra the snapshot carries
 COMPASS = ("north", "north-east", "east", "south-east", "south", "south-west", "west", "north-west")
 
 
@@ -66,6 +78,11 @@ class ReflectionStats:
         self._evaluated = 0
         self._refused: Counter[str] = Counter()
         self._provisional: dict[tuple[str, int, str], ArcResult] = {}  # arcs in progress, last check
+        self._grid = np.arange(self.cfg.h_min_m, self.cfg.h_max_m + SPECTRUM_STEP_M / 2, SPECTRUM_STEP_M)
+        self._spec_sum = np.zeros(self._grid.size)
+        self._n_spec = 0
+        self._pg_cache: tuple[int, dict[str, Any]] = (-1, {})
+        self._curves: deque[tuple[ArcResult, np.ndarray]] = deque(maxlen=KEEP_CURVES)
 
     def _sector(self, az: float) -> int:
         return int((az % 360.0) // self.cfg.sector_deg) % len(self._sectors)
@@ -79,6 +96,10 @@ class ReflectionStats:
             return
         self._sectors[self._sector(res.az)].append((float(res.fit.height_m or 0.0), res.fit.mp_db))
         self._recent.append(res)
+        amp = spectrum(np.sin(np.radians(arc.el)), arc.cn0, arc.lam, self._grid, self.cfg)
+        self._spec_sum += amp
+        self._n_spec += 1
+        self._curves.append((res, amp))
 
     def on_epoch(self, ep: Epoch) -> None:
         if not self._arcs.on_epoch(ep):
@@ -135,12 +156,16 @@ class ReflectionStats:
                 dist, major, minor = fresnel_zone(h, e, L1_LAMBDA)
                 fresnel.append({"el_deg": e, "distance_m": round(dist, 2), "length_m": round(2 * major, 2),
                                 "width_m": round(2 * minor, 2)})
-        status = "collecting" if n < cfg.min_arcs_sector else "estimated"
+        # a multipath figure also when no arc showed a reflection: enough arcs looked and found none
+        # above the detection floor, so a profile's limit on it can pass (a missing figure fails)
+        looked = n == 0 and self._evaluated >= cfg.min_arcs_sector
+        status = "none found" if looked else "collecting" if n < cfg.min_arcs_sector else "estimated"
         return {
             "status": status,
             "height_m": None if h is None else round(h, 3),
             "spread_m": round(_spread(all_h), 3) if n > 1 else None,
-            "mp_db": round(float(np.median(all_mp)), 2) if n else None,
+            "mp_db": round(float(np.median(all_mp)), 2) if n else 0.0 if looked else None,
+            "mp_floor_db": round(mp_db(cfg.min_amplitude), 2),  # the weakest multipath an arc can show
             "arcs": n,
             "arcs_evaluated": self._evaluated + len(self._provisional),
             "arcs_in_progress": self._arcs.in_progress,
@@ -149,9 +174,26 @@ class ReflectionStats:
             "fresnel": fresnel,
             "advice": advice(status, h, sectors, n, self._evaluated + len(self._provisional), cfg),
             "recent": [r.to_json() for r in self._recent],
+            "periodogram": self._periodogram(),
             "wavelength_m": round(L1_LAMBDA, 6),
             "config": cfg.to_json(),
         }
+
+
+    def _periodogram(self) -> dict[str, Any]:
+        """Mean amplitude spectrum of the accepted arcs and the newest arcs' own, on one H grid."""
+        n = self._n_spec
+        if self._pg_cache[0] != n:  # snapshots come several times a second; arcs close minutes apart
+            self._pg_cache = (n, self._periodogram_json(n))
+        d = self._pg_cache[1]  # copies: each snapshot owns its lists
+        return {**d, "mean": list(d["mean"]), "curves": [{**c, "amp": list(c["amp"])} for c in d["curves"]]}
+
+    def _periodogram_json(self, n: int) -> dict[str, Any]:
+        return {"h_from": round(float(self._grid[0]), 3), "h_step": SPECTRUM_STEP_M, "arcs": n,
+                "mean": [round(float(v), 4) for v in self._spec_sum / n] if n else [],
+                "curves": [{"sat": r.label, "az": round(r.az, 1), "height_m": round(float(r.fit.height_m or 0.0), 3),
+                            "amp": [round(float(v), 4) for v in amp]} for r, amp in self._curves],
+                "min_amplitude": self.cfg.min_amplitude}
 
 
 def _spread(h: np.ndarray) -> float:

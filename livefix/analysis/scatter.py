@@ -1,6 +1,6 @@
 """Horizontal and vertical scatter figures from local E/N/U offsets.
 
-Definitions (see shared/REFERENCES.md):
+Definitions (see docs/sources.md#cep-and-2drms and docs/sources.md#circular-normal-factors):
 - CEP50 / CEP95: radius about the centre holding 50 % / 95 % of the fixes (exact percentiles).
 - R95: the same empirical 95 % radius as CEP95 (two names for one figure, kept for readers who
   look for either); the Gaussian model value is available separately as `r95_gauss_m`, from the
@@ -22,7 +22,7 @@ import numpy as np
 
 from livefix.analysis.streaming import num
 
-R95_FACTOR = 2.4477  # circular normal 95 % radius / sigma (Rayleigh quantile, REFERENCES.md)
+R95_FACTOR = 2.4477  # circular normal 95 % radius / sigma (Rayleigh quantile, docs/sources.md#circular-normal-factors)
 
 
 def ellipse(cov2: np.ndarray) -> dict[str, float | None]:
@@ -65,7 +65,7 @@ def figures(e: np.ndarray, n: np.ndarray, u: np.ndarray | None = None,
 
 def figures_from_moments(n: int, cov3: np.ndarray | None, cep50: float | None, cep95: float | None,
                          v95: float | None) -> dict[str, Any]:
-    """Session figures from streaming pieces: Welford covariance plus histogram percentiles."""
+    """Session figures from streaming pieces: one-pass running covariance plus histogram percentiles."""
     out: dict[str, Any] = {"n": n, "cep50_m": num(cep50), "cep95_m": num(cep95), "r95_m": num(cep95),
                            "v95_m": num(v95)}
     if cov3 is None:

@@ -6,7 +6,7 @@ against what this installation does at the same elevation, not against a fixed n
 Session figures (means, bands, curve) sample the latest epoch once per second of stream time, so
 a 10 Hz and a 1 Hz stream weigh the sky alike; "current" is the latest epoch.
 Curve: least squares cn0 = a + b·sin(el) from running sums (bounded, exact).
-Interference (common practice; Calcagno et al., NAVITEC 2010 in shared/REFERENCES.md): a jammer
+Interference (common practice; NAVITEC 2010, docs/sources.md#interference-indicator): a jammer
 lowers C/N0 on every satellite at once regardless of direction, whereas blockage and multipath hit
 particular sectors. Each signal keeps a slow baseline (exponential, 30 s time constant, frozen while
 an event is open); an event opens when ≥ 70 % of the satellites with a baseline dropped by at least
@@ -24,7 +24,6 @@ from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
 from livefix.state.epoch import Epoch, Event, SatObs
-from livefix.state.sky import sats_token
 from livefix.timefmt import iso
 
 BASE_TAU_S = 30.0  # baseline time constant
@@ -80,16 +79,14 @@ class SignalStats:
         self.events_total = 0
         self._if_t = -math.inf
         self._last_sats: tuple | None = None
-        self._last_tok: object | None = None
         # per (az cell, el cell): [n, Σ sin el, Σ C/N0]; the residual to the linear curve is exact
         # from these sums whenever the curve is read (bounded: 12 x 6 cells)
         self.cells: dict[tuple[int, int], list[float]] = {}
 
     # -- per epoch --------------------------------------------------------------------------
     def on_epoch(self, ep: Epoch) -> None:
-        if ep.sats is not self._last_sats and (  # the state model reuses the tuple while unchanged,
-                (tok := sats_token(ep.sats)) is None or tok is not self._last_tok):  # or its layout
-            self._last_sats, self._last_tok = ep.sats, tok
+        if ep.sats is not self._last_sats:  # the state model reuses the tuple while unchanged
+            self._last_sats = ep.sats
             self.cur = [s for s in ep.sats if s.cn0 and s.cn0 > 0]
             vals = [s.cn0 for s in self.cur]
             self._cur_sum = sum(vals)  # what _accumulate adds per sample (same terms, same order)

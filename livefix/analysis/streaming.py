@@ -26,22 +26,13 @@ def num(x: float | None, nd: int = 4) -> float | None:
     return round(x, nd)
 
 
-_vf_memo: tuple[object, bool] = (None, False)
-
-
 def valid_fix(ep: Epoch) -> bool:
     """A fix whose coordinates can be used: one NaN would poison every running sum for good.
-    Remembered for the latest epoch object (several statistics ask about the same epoch)."""
-    global _vf_memo
-    m = _vf_memo
-    if m[0] is ep:
-        return m[1]
+    A pure function (no memo: the test costs about what a lookup would)."""
     lat, lon, h = ep.lat, ep.lon, ep.h
-    ok = (ep.quality > 0 and lat is not None and lon is not None and math.isfinite(lat)
-          and math.isfinite(lon) and -90.0 <= lat <= 90.0 and -180.0 <= lon <= 360.0
-          and (h is None or (math.isfinite(h) and abs(h) < 1e7)))
-    _vf_memo = (ep, ok)
-    return ok
+    return (ep.quality > 0 and lat is not None and lon is not None and math.isfinite(lat)
+            and math.isfinite(lon) and -90.0 <= lat <= 90.0 and -180.0 <= lon <= 360.0
+            and (h is None or (math.isfinite(h) and abs(h) < 1e7)))
 
 
 class Timeline:
@@ -161,7 +152,7 @@ class Ring:
 
 
 class Moments:
-    """Welford running mean and covariance of a small vector (numerically stable, O(1))."""
+    """One-pass running mean and covariance of a small vector (numerically stable, O(1))."""
 
     __slots__ = ("n", "mean", "m2")
 

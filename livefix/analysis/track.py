@@ -23,7 +23,7 @@ T, E, N, U, SLAT, SLON, SALT, HDOP = range(8)
 
 
 class Moments3:
-    """Pure-Python Welford mean/covariance of (e, n) and, over the epochs with a height, of u: cheaper
+    """Pure-Python one-pass mean/covariance of (e, n) and, over the epochs with a height, of u: cheaper
     than numpy for one row. An epoch without a height (u NaN) adds to the horizontal moments only."""
 
     __slots__ = ("n", "m", "c", "nu")

@@ -2,14 +2,16 @@
 
 Grammar of one threshold (a `[[threshold]]` table):
   name        short id, unique in the profile (JUnit test case name)
-  metric      dotted path into the snapshot, e.g. "sky.clear_above_deg", "fix.longest_outage_s",
-              with optional list selectors; the path language is livefix.analysis.paths.
+  metric      a name of the metric catalogue (livefix.analysis.catalogue, docs/metrics.md), e.g.
+              "sky.clear_above_deg", or a path with list selectors that starts at a published figure,
+              e.g. "signal.by_elevation[from>=30].mean"; the path language is livefix.analysis.paths.
   op          <=  <  >=  >  ==
   limit       number
   fix         optional fix type ("rtk_fixed", "single", ...): take the figure for epochs of that fix
               only ("position.X" -> "position.by_fix.FIX.X", "fix.availability" -> its FIX share)
   reduce      optional for lists: min max mean sum count first last (a list defaults to count)
-  unit, description, source   text; source names the published guideline or says "common practice"
+  unit        optional; when given it must be the catalogue unit of the metric (the default)
+  description, source   text; source names the published guideline or says "common practice"
 [profile] may state converge_h_m / converge_v_m: the convergence radius (metres) the figures use.
 A missing figure fails with the note "not measured": a check that could not look did not pass.
 """
@@ -23,6 +25,7 @@ from importlib import resources
 from pathlib import Path
 from typing import Any
 
+from livefix.analysis import catalogue
 from livefix.analysis.paths import (
     OPS,
     REDUCERS,
@@ -117,9 +120,11 @@ class Result:
     fix: str | None = None
     inconclusive: bool = False  # the 95 % interval straddles the limit: neither pass nor fail
     interval: tuple[float, float] | None = None  # 95 % interval of the measured value, when it has one
+    label: str = ""  # the metric's label in the catalogue (the path itself for a selector path)
 
     def to_json(self) -> dict[str, Any]:
-        return {"name": self.name, "metric": self.metric, "fix": self.fix, "measured": self.measured,
+        return {"name": self.name, "metric": self.metric, "label": self.label, "fix": self.fix,
+                "measured": self.measured,
                 "op": self.op, "limit": self.limit, "unit": self.unit, "passed": self.passed,
                 "inconclusive": self.inconclusive, "interval95": None if self.interval is None else list(self.interval),
                 "note": self.note, "description": self.description, "source": self.source}
@@ -221,14 +226,32 @@ def _threshold(t: Any, where: str) -> Threshold:
             raise ProfileError(f"{where}: key 'fix' must be one of {', '.join(FIX_NAMES.values())}")
         if not any(t["metric"].startswith(p) for p, _ in FIX_SCOPES):
             raise ProfileError(f"{where}: key 'fix' applies only to position.* or fix.availability")
-    bad = unknown_metric(t["metric"])
+    entry = _catalogued(t["metric"], fix, where)
+    stated = str(t.get("unit") or "")  # an empty unit is not a statement
+    if stated not in UNITS:
+        raise ProfileError(f"{where}: unknown unit {t['unit']!r}: use one of {', '.join(u for u in UNITS if u)}")
+    if stated and entry is not None and stated != entry.unit:
+        raise ProfileError(f"{where}: unit {stated!r} does not match {entry.path!r}, which is in "
+                           f"{entry.unit or 'no unit'!r} (docs/metrics.md)")
+    return Threshold(name=str(t["name"]), metric=t["metric"], op=t["op"], limit=float(t["limit"]), fix=fix,
+                     reduce=t.get("reduce"), unit=stated or (entry.unit if entry else ""),
+                     description=str(t.get("description", "")), source=str(t.get("source", "common practice")))
+
+
+def _catalogued(metric: str, fix: str | None, where: str) -> catalogue.Metric | None:
+    """The catalogue entry a threshold names (directly, or once its fix qualifier is applied); None
+    for a selector path, which must still start at a published figure. Anything else is refused
+    with the list of valid names."""
+    scoped = Threshold("", metric, "<=", 0.0, fix=fix).path
+    for path in (metric, scoped):
+        if catalogue.known(path):
+            return catalogue.metric(path)
+    if "[" not in metric:
+        raise ProfileError(f"{where}: {catalogue.unknown_text(metric)}")
+    bad = unknown_metric(metric)
     if bad is not None:
         raise ProfileError(f"{where}: {bad}")
-    if str(t.get("unit", "")) not in UNITS:
-        raise ProfileError(f"{where}: unknown unit {t['unit']!r}: use one of {', '.join(u for u in UNITS if u)}")
-    return Threshold(name=str(t["name"]), metric=t["metric"], op=t["op"], limit=float(t["limit"]), fix=fix,
-                     reduce=t.get("reduce"), unit=str(t.get("unit", "")),
-                     description=str(t.get("description", "")), source=str(t.get("source", "common practice")))
+    return None
 
 
 def _ttff(t: Any, where: str, builtin: bool) -> TTFFCycles:
@@ -301,5 +324,6 @@ def evaluate(profile: Profile, analysis: dict[str, Any]) -> list[Result]:
             passed, inconclusive, note = judge(OPS[t.op], t.limit, measured, ci, span if is_num(span) else None)
         results.append(Result(name=t.name, metric=t.metric, measured=measured, limit=t.limit, op=t.op,
                               passed=passed, source=t.source, note=note, description=t.description,
-                              unit=t.unit, fix=t.fix, inconclusive=inconclusive, interval=ci))
+                              unit=t.unit, fix=t.fix, inconclusive=inconclusive, interval=ci,
+                              label=catalogue.label(t.metric if catalogue.known(t.metric) else t.path)))
     return results

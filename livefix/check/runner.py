@@ -18,10 +18,17 @@ from typing import Any, TextIO
 
 from livefix.check.profile import Profile, Result, evaluate
 from livefix.report.escape import term_text
+from livefix.site import coerce, overlay, site_name
 
 TICK_S = 0.2
 PROGRESS_S = 1.0
 _NAMED = re.compile(r"^([A-Za-z][A-Za-z0-9_-]{0,31})=(.+)$")
+
+
+def _site_json(site: Any) -> dict[str, Any] | None:
+    """The site record for a recording header (None when nothing was given)."""
+    info = coerce(site)
+    return None if info.empty else info.to_json()
 
 
 def name_sources(specs: list[str]) -> list[tuple[str, str]]:
@@ -45,7 +52,7 @@ class CheckOptions:
     ref: tuple[float, float, float] | None = None
     report_dir: str | None = None
     record_dir: str | None = None
-    site: str = ""
+    site: Any = ""  # livefix.site.SiteInfo, or a plain site name
     notes: str = ""
     metrics: tuple[str, int] | None = None
     speed: float | None = None
@@ -126,13 +133,10 @@ class CheckRun:
         return self._report()
 
     def _run_files(self) -> None:
-        from livefix.pipeline import batch_gc
-
-        with batch_gc():
-            for rx in self.rxs:
-                self._run_file(rx)
-                if not self.complete:
-                    break
+        for rx in self.rxs:
+            self._run_file(rx)
+            if not self.complete:
+                break
 
     def _run_file(self, rx: _Rx) -> None:
         """One file through a Pipeline on this thread; with a split its analysis runs in a second
@@ -175,8 +179,9 @@ class CheckRun:
         rec_dir = self.o.record_dir or self.o.report_dir
         for rx in self.rxs:
             rx.recording = _record_path(rec_dir, rx.name) if rec_dir else None
-            rx.session = Session(rx.source, self.config, record_path=rx.recording,
-                                 notes=self.o.site + ("; " + self.o.notes if self.o.notes else ""), publish_hz=5.0)
+            rx.session = Session(rx.source, self.config, record_path=rx.recording, site=_site_json(self.o.site),
+                                 notes=site_name(self.o.site) + ("; " + self.o.notes if self.o.notes else ""),
+                                 publish_hz=5.0)
             if prof.ttff is not None:
                 rx.cycler = TTFFCycler(prof.ttff, rx.session.write, mark=rx.session.add_marker)
         from livefix.probe import no_nmea_watch
@@ -259,6 +264,10 @@ class CheckRun:
                 ttff_cycles=rx.cycler.summary() if rx.cycler is not None else None,
                 link=getattr(snap, "link", ""), link_detail=getattr(snap, "link_detail", ""),
                 extra={"bytes": snap.counters.bytes if snap is not None else 0}))
-        return build_report(runs, profile=self.o.profile, site=self.o.site, notes=self.o.notes, ref=self.o.ref,
+        site, note = coerce(self.o.site), None
+        if len(self.rxs) == 1:  # one recording replayed: its recorded site record, the command line's on top
+            site, note = overlay((getattr(self.rxs[0].source, "header", None) or {}).get("site"), site)
+        notes = "; ".join(n for n in (self.o.notes, note) if n)
+        return build_report(runs, profile=self.o.profile, site=site, notes=notes, ref=self.o.ref,
                             started=self.started, ended=time.time(), complete=self.complete,
                             incomplete_reason=self.reason, command=self.o.command)

@@ -15,6 +15,8 @@ from typing import Any
 
 from livefix.refpoint import parse_ref
 from livefix.report.escape import term_text
+from livefix.site import add_arguments as add_site_arguments
+from livefix.site import from_namespace as site_from_args
 
 
 def add_arguments(p: argparse.ArgumentParser) -> None:
@@ -25,7 +27,9 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
                    "sources, the whole file for files)")
     p.add_argument("--ref", help="surveyed point LAT,LON,H (WGS 84, ellipsoidal height)")
     p.add_argument("--report", metavar="DIR", help="write report.json, report.md, report.html, junit.xml")
-    p.add_argument("--site", default="", help="site description for the report")
+    p.add_argument("--pdf", action="store_true", help="with --report: also write report.pdf (A4; needs the "
+                   "extra: pip install 'livefix[pdf]')")
+    add_site_arguments(p)
     p.add_argument("--notes", default="", help="free notes for the report")
     p.add_argument("--metrics", metavar="[HOST:]PORT", help="serve Prometheus metrics (default host 127.0.0.1)")
     p.add_argument("--record-dir", metavar="DIR", help="where live sources are recorded (default: the report dir)")
@@ -49,17 +53,27 @@ def run(args: argparse.Namespace) -> int:
     from livefix.timefmt import parse_duration
 
     err = sys.stderr
+    if args.pdf:
+        from livefix.report.pdf import MISSING, available
+
+        if not args.report or not available():  # said before the run, not after it
+            print(f"livefix check: could not run: {MISSING if args.report else '--pdf needs --report DIR'}",
+                  file=err)
+            return 2
     try:
         profile = load_profile(args.profile)
         duration = parse_duration(args.duration) if args.duration else None
         ref = parse_ref(args.ref) if args.ref else None
+        site = site_from_args(args)
+        for warning in site.warnings():
+            print(f"livefix check: {term_text(warning)}", file=err)
         metrics = None
         if args.metrics:
             from livefix.export.metrics import parse_listen
 
             metrics = parse_listen(args.metrics)
         opts = CheckOptions(sources=name_sources(args.sources), profile=profile, duration_s=duration, ref=ref,
-                            report_dir=args.report, record_dir=args.record_dir, site=args.site, notes=args.notes,
+                            report_dir=args.report, record_dir=args.record_dir, site=site, notes=args.notes,
                             metrics=metrics, speed=args.speed, jobs=args.jobs, wait=args.wait,
                             command="livefix check " + " ".join(shlex.quote(a) for a in sys.argv[2:]))
         check = CheckRun(opts)
@@ -90,7 +104,7 @@ def run(args: argparse.Namespace) -> int:
         from livefix.report.write import write_all
 
         try:
-            for path in write_all(report, args.report, junit=True):
+            for path in write_all(report, args.report, junit=True, pdf=args.pdf):
                 print(f"wrote {term_text(path)}", file=err)
         except OSError as exc:
             print(f"livefix check: cannot write the report: {term_text(exc)}", file=err)

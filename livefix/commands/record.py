@@ -7,6 +7,8 @@ import sys
 import threading
 import time
 
+from livefix.site import add_arguments as add_site_arguments
+from livefix.site import from_namespace as site_from_args
 from livefix.sources.base import Link, LinkEvent, SourceError
 from livefix.timefmt import parse_duration
 
@@ -17,6 +19,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("source", help="device, serial:DEVICE, tcp://HOST:PORT, -, sim:NAME or a file")
     p.add_argument("-o", "--output", required=True, help="recording file to create (.lfr, .lfr.gz)")
     p.add_argument("--note", default="", help="site notes for the header, also written as a marker")
+    add_site_arguments(p)  # kept in the recording header, so a replay or report keeps the site record
     p.add_argument("--baud", default="auto", help="serial baud rate or 'auto' (default)")
     p.add_argument("--duration", help="stop after this long, e.g. 90s, 30m, 24h, 7d")
     p.add_argument("--gzip", action="store_true", help="compress (still readable after a crash)")
@@ -50,8 +53,11 @@ def run(args: argparse.Namespace) -> int:
         if rotate is not None and rotate <= 0:
             raise ValueError("--rotate must be positive")
         baud = args.baud if args.baud == "auto" else int(args.baud)
+        site = site_from_args(args)  # a bad site file is refused before the source is opened
     except ValueError as exc:
         return _fail(str(exc))
+    for warning in site.warnings():
+        print(f"livefix record: {warning}", file=sys.stderr)
     try:
         src = open_source(args.source, baud=baud, speed=None, wait=args.wait)
         first_contact(src, wait=args.wait)
@@ -63,7 +69,8 @@ def run(args: argparse.Namespace) -> int:
         output += ".gz"  # keep the documented suffix for compressed recordings
     try:
         rec = Recorder(output, source=src.name, notes=args.note,
-                       compress="gzip" if args.gzip else None, rotate_s=rotate)
+                       compress="gzip" if args.gzip else None, rotate_s=rotate,
+                       site=None if site.empty else site.to_json())
     except FileExistsError:
         src.close()
         return _fail(f"{output} already exists; choose a new file name")

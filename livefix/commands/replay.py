@@ -131,6 +131,14 @@ def format_summary(s: dict[str, Any]) -> str:
     rows = [f"{kind}: {s['file']}"]
     if s.get("header", {}).get("notes"):
         rows.append("notes: " + " | ".join(str(s["header"]["notes"]).splitlines()))
+    if isinstance(s.get("header", {}).get("site"), dict):  # the recorded site record (livefix.site)
+        from livefix.site import NOT_RECORDED, from_mapping
+
+        try:
+            told = [f"{k}: {v}" for k, v in from_mapping(s["header"]["site"]).rows() if v != NOT_RECORDED]
+        except ValueError:
+            told = ["damaged"]
+        rows.append("site record: " + ("; ".join(told) or "empty"))
     rows.append(f"lines: {s.get('lines')}  bytes: {s.get('bytes')}  junk bytes: {s.get('junk_bytes', '-')}")
     if s.get("binary_frames"):
         rows.append(f"binary: {s['binary_frames']} frames ({s.get('binary_bytes')} bytes), not counted as NMEA")

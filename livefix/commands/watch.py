@@ -14,6 +14,9 @@ from collections.abc import Mapping
 from pathlib import Path
 from typing import Any
 
+from livefix.site import add_arguments as add_site_arguments
+from livefix.site import from_namespace as site_from_args
+
 COLOR_SYSTEMS = ("standard", "256", "truecolor", "auto")  # what TEXTUAL_COLOR_SYSTEM accepts
 
 
@@ -24,6 +27,7 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
     p.add_argument("--ref", metavar="LAT,LON,H", help="surveyed reference: degrees, degrees, "
                    "ellipsoidal height in metres")
     p.add_argument("--record", metavar="FILE", help="record losslessly to FILE from the start")
+    add_site_arguments(p)  # kept in the header of --record's file
     p.add_argument("--speed", default="1", help="replay speed for files: a factor (default 1 = real "
                    "time) or max")
     p.add_argument("--ascii", action="store_true", help="plain ASCII drawing (automatic when the "
@@ -117,8 +121,12 @@ def run(args: argparse.Namespace) -> int:
         ref = parse_ref(args.ref) if args.ref else None
         speed = parse_speed(args.speed)
         verdict, profile_name = _verdict(args.profile)
-    except ValueError as exc:  # includes the profile loader's own one-line errors
+        site = site_from_args(args)
+    except ValueError as exc:  # includes the profile and site loaders' own one-line errors
         return _fail(str(exc))
+    for line in site.warnings():
+        print(f"{PROG['name']}: {line}", file=sys.stderr)
+    args.site_record = site
     from livefix.probe import check_file, first_contact
 
     wait = bool(getattr(args, "wait", False))
@@ -146,7 +154,9 @@ def _run_app(source: Any, args: argparse.Namespace, palette: Any, ref: Any, verd
     from livefix.session import Session
     from livefix.ui.app import MonitorApp
 
-    session = Session(source, config=AnalysisConfig(ref=ref) if ref else None, record_path=args.record)
+    site = getattr(args, "site_record", None)
+    session = Session(source, config=AnalysisConfig(ref=ref) if ref else None, record_path=args.record,
+                      site=None if site is None or site.empty else site.to_json())
     try:
         session.start()
     except (OSError, ValueError) as exc:

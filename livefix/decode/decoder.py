@@ -26,8 +26,10 @@ from livefix.decode import (
     Decoded,
     Rejected,
 )
-from livefix.decode.fast import FAST_DECODERS, FAST_TYPES, decode_fields
+from livefix.decode.fast import FAST_TYPES, fast_decoders
 from livefix.faults import log_internal
+from livefix.framing import built_core, native_core
+from livefix.timefmt import YY_PIVOT
 
 _HEX = frozenset("0123456789abcdefABCDEF")
 _TALKERS = frozenset(t for t in NMEA_TALKERS if len(t) == 2)
@@ -39,8 +41,13 @@ def _public(msg: Any) -> dict[str, Any]:
 
 # "*4b" -> what the XOR of a whole "$...*4b" line must be: 0x4B ^ '$' ^ '*' ^ '4' ^ 'b'.
 _STARHEX = {f"*{a}{b}": int(a + b, 16) ^ 0x24 ^ 0x2A ^ ord(a) ^ ord(b) for a in _HEX for b in _HEX}
-# "$GPGGA," -> (header, talker, msg_id, field decoder) for every accepted talker and fast type.
-_FAST_HDR = {f"${t}{m},": (t + m, t, m, FAST_DECODERS[m]) for t in _TALKERS for m in FAST_TYPES}
+# "$GPGGA," -> (header, talker, msg_id) for every accepted talker and fast type; each Decoder adds
+# its own field decoder (its own conversion caches) to these.
+_FAST_HDR = {f"${t}{m},": (t + m, t, m) for t in _TALKERS for m in FAST_TYPES}
+_CORE = built_core()
+if _CORE is not None:
+    _CORE.configure(sorted(_TALKERS), YY_PIVOT)  # the same talkers and year pivot as this module
+_NATIVE = native_core()  # the default for a Decoder (LIVEFIX_PURE=1 makes it None)
 # Types whose lines often repeat byte for byte (no time field); only these enter the line cache.
 _REPEATING = frozenset({"GSA", "VTG"})
 # GSV lines repeat too when a receiver refreshes its satellite list slower than its epoch rate
@@ -62,8 +69,11 @@ class Decoder:
     Not thread-safe: one decoder per pipeline.
     """
 
-    def __init__(self, line_cache: int = 1024) -> None:
+    def __init__(self, line_cache: int = 1024, native: bool | None = None) -> None:
         """line_cache: how many recent fast-path lines to remember (0 turns the cache off).
+        native: use the C core (livefix/_native.c) for the common shape of a fast-type line; None
+        follows livefix.framing.native_core() (built, and LIVEFIX_PURE is not "1"). The C core
+        hands every unusual line back to the Python path below, so the results are the same.
 
         Receivers repeat GSA and VTG sentences byte for byte for long stretches; a repeat then
         costs one dict lookup and returns the same Decoded object (its fields are shared, which is
@@ -75,6 +85,13 @@ class Decoder:
         self._lines: dict[bytes, tuple[str, Decoded, int]] = {}  # line -> (header, value, is GSV)
         self._cacheable = _WITH_GSV
         self._gsv_hits = self._gsv_ins = 0  # GSV cache hits / insertions since the last refill
+        self._fast = fast_decoders()  # this decoder's own bounded conversion caches (issue 14)
+        self._hdrs = {k: (*v, self._fast[v[2]]) for k, v in _FAST_HDR.items()}
+        if native is None:
+            native = _NATIVE is not None
+        elif native and _CORE is None:
+            raise RuntimeError("the C core livefix._native is not built")
+        self._native = _CORE.decode if native and _CORE is not None else None
 
     @property
     def counters(self) -> DecodeCounters:
@@ -124,13 +141,16 @@ class Decoder:
                 pend[hit[0]] = pend.get(hit[0], 0) + 1
                 self._gsv_hits += hit[2]
                 return hit[1]
+            r = self._native(line) if self._native is not None else None
+            if r is not None:  # the C core took the line: ((header, talker, msg_id), fields)
+                hit, fields = r
             else:
                 # The common case inline: "$TTMMM,...*hh", ASCII, fast type, at most 128 bytes.
                 try:
                     s = line.decode("ascii")
                 except UnicodeDecodeError:
                     return self._decode(line)
-                hit = _FAST_HDR.get(s[:7])
+                hit = self._hdrs.get(s[:7])
                 want = _STARHEX.get(s[-3:])
                 if hit is None or want is None or len(line) > 128 or s.find("*", 7, -3) >= 0:
                     return self._decode(line)
@@ -153,18 +173,18 @@ class Decoder:
                     return self._no(MALFORMED, hit[2], line, "bad numeric field")
                 except Exception:  # unusual shape: let the reference decide
                     return self._fallback(line, hit[1], hit[2])
-                if self._cache_max and hit[2] in self._cacheable:
-                    lines = self._lines
-                    if len(lines) >= self._cache_max:
-                        # a full cache: keep GSV in it only if repeats paid off since the last refill
-                        self._cacheable = (_WITH_GSV if self._gsv_hits >= _MIN_HIT_SHARE * self._gsv_ins
-                                           else _REPEATING)
-                        self._gsv_hits = self._gsv_ins = 0
-                        lines.clear()
-                    gsv = int(hit[2] == "GSV")
-                    self._gsv_ins += gsv
-                else:
-                    lines = None
+            if self._cache_max and hit[2] in self._cacheable:
+                lines = self._lines
+                if len(lines) >= self._cache_max:
+                    # a full cache: keep GSV in it only if repeats paid off since the last refill
+                    self._cacheable = (_WITH_GSV if self._gsv_hits >= _MIN_HIT_SHARE * self._gsv_ins
+                                       else _REPEATING)
+                    self._gsv_hits = self._gsv_ins = 0
+                    lines.clear()
+                gsv = int(hit[2] == "GSV")
+                self._gsv_ins += gsv
+            else:
+                lines = None
             hdr = hit[0]
             pend = self._pending
             pend[hdr] = pend.get(hdr, 0) + 1
@@ -216,7 +236,7 @@ class Decoder:
             return self._no(UNKNOWN, msg_id or "?", line, f"unknown sentence {hdr}")
         if msg_id in FAST_TYPES:
             try:
-                fields = decode_fields(msg_id, rest.split(",") if comma else [])
+                fields = self._fast[msg_id](rest.split(",") if comma else [])
             except ValueError:  # pynmeagps raises NMEATypeError for the same text
                 return self._no(MALFORMED, msg_id, line, "bad numeric field")
             except Exception:  # unusual shape: let the reference decide

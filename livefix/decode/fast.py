@@ -12,7 +12,8 @@ attribute at a time; the rules reproduced here are:
   * GSV carries int((len(payload) - 3) / 4) satellite blocks, then signalID (a string) if any
     field is left.
 Field texts repeat a lot (units, flags, satellite numbers, the epoch time in four sentences), so
-every conversion goes through a bounded str -> value cache; a decode is then a few C-level calls.
+every conversion goes through a bounded str -> value cache (one set per Decoder, fast_decoders);
+a decode is then a few C-level calls.
 """
 
 from __future__ import annotations
@@ -26,7 +27,7 @@ from pynmeagps.nmeahelpers import date2utc, time2utc
 
 from livefix.timefmt import year_from_yy
 
-__all__ = ["FAST_DECODERS", "FAST_TYPES", "decode_fields", "parse_time", "parse_date", "parse_latlon"]
+__all__ = ["DEFS", "FAST_TYPES", "GSV_NAMES", "fast_decoders", "parse_time", "parse_date", "parse_latlon"]
 
 _CACHE_MAX = 4096  # entries per conversion cache; cleared when full (bounded memory)
 
@@ -107,12 +108,12 @@ def _str(s: str) -> str:
 
 
 Conv = Callable[[str], Any]
-# One cache per conversion kind, shared by all types: the conversions are pure functions of the text.
-_TM, _LA, _IN, _DE, _CH, _DT = (_Cache(parse_time), _Cache(parse_latlon), _Cache(_int), _Cache(_float),
-                                _Cache(_str), _Cache(parse_date))
+# Conversion kinds; each decoder set gets its own bounded cache per kind (see fast_decoders).
+_TM, _LA, _IN, _DE, _CH, _DT = (parse_time, parse_latlon, _int, _float, _str, parse_date)
 
-# Payload definitions (name, converter), in pynmeagps order (nmeatypes_get.py).
-_DEFS: dict[str, tuple[tuple[str, _Cache], ...]] = {
+# Payload definitions (name, conversion), in pynmeagps order (nmeatypes_get.py). The C core
+# (livefix/_native.c) holds the same table; tests/decode/test_native_identity.py compares them.
+DEFS: dict[str, tuple[tuple[str, Conv], ...]] = {
     "GGA": (("time", _TM), ("lat", _LA), ("NS", _CH), ("lon", _LA), ("EW", _CH), ("quality", _IN),
             ("numSV", _IN), ("HDOP", _DE), ("alt", _DE), ("altUnit", _CH), ("sep", _DE),
             ("sepUnit", _CH), ("diffAge", _DE), ("diffStation", _IN)),
@@ -132,71 +133,69 @@ _DEFS: dict[str, tuple[tuple[str, _Cache], ...]] = {
             ("diffStation", _IN), ("navStatus", _CH)),
 }
 _MAX_BLOCKS = 99  # pynmeagps names beyond _99 get three digits; such lines go to the fallback
-_GSV_NAMES = tuple(
+GSV_NAMES = tuple(
     ("numMsg", "msgNum", "numSV")
     + tuple(f"{a}_{i:02d}" for i in range(1, k + 1) for a in ("svid", "elv", "az", "cno"))
     for k in range(_MAX_BLOCKS + 1)
 )
 _getitem = dict.__getitem__
-
-
-_in_get = _IN.__getitem__
-
-
-def _gsv(p: list[str]) -> dict[str, Any]:
-    n = len(p)
-    if n < 3:
-        return dict(zip(_GSV_NAMES[0], map(_in_get, p), strict=False))
-    k = (n - 3) >> 2
-    if k > _MAX_BLOCKS:
-        raise OverflowError("too many satellite blocks")  # the caller falls back to pynmeagps
-    # zip stops at the names, so a trailing signalID is never converted as an int.
-    try:
-        d = dict(zip(_GSV_NAMES[k], map(_in_get, p), strict=False))
-    except ValueError:
-        d = _gsv_decimal_cn0(p, k)  # raises ValueError again unless only C/N0 had decimals
-    j = 3 + 4 * k
-    if j < n:
-        d["signalID"] = p[j]
-    return d
-
-
 _DECIMAL_CN0 = re.compile(r"[0-9]{1,2}\.[0-9]{1,3}")  # dd.d: within the field's 00-99 dB-Hz
 
 
-def _cn0(s: str) -> int | float | str:
+def _gsv_decoder(in_get: Callable[[str], Any]) -> Callable[[list[str]], dict[str, Any]]:
+    def gsv(p: list[str]) -> dict[str, Any]:
+        n = len(p)
+        if n < 3:
+            return dict(zip(GSV_NAMES[0], map(in_get, p), strict=False))
+        k = (n - 3) >> 2
+        if k > _MAX_BLOCKS:
+            raise OverflowError("too many satellite blocks")  # the caller falls back to pynmeagps
+        # zip stops at the names, so a trailing signalID is never converted as an int.
+        try:
+            d = dict(zip(GSV_NAMES[k], map(in_get, p), strict=False))
+        except ValueError:
+            d = _gsv_decimal_cn0(p, k, in_get)  # raises ValueError again unless only C/N0 had decimals
+        j = 3 + 4 * k
+        if j < n:
+            d["signalID"] = p[j]
+        return d
+
+    return gsv
+
+
+def _cn0(s: str, in_get: Callable[[str], Any]) -> int | float | str:
     """C/N0 as written: whole dB-Hz (the NMEA 0183 field is an integer 00-99), or with decimals as
     some receivers write it (e.g. 48.4); the decimals are kept, they carry real information."""
     try:
-        return _in_get(s)
+        return in_get(s)
     except ValueError:
         if _DECIMAL_CN0.fullmatch(s) is None:
             raise
         return float(s)
 
 
-def _gsv_decimal_cn0(p: list[str], k: int) -> dict[str, Any]:
+def _gsv_decimal_cn0(p: list[str], k: int, in_get: Callable[[str], Any]) -> dict[str, Any]:
     """A GSV whose C/N0 fields carry decimals. The reference decoder refuses the whole line; that
     would empty the sky of a receiver that is working fine, so this one deviation is deliberate and
     tested (tests/decode/test_decode_fields.py). Every other field keeps the strict rules."""
-    names = _GSV_NAMES[k]
-    return {n: (_cn0(v) if i >= 3 and (i - 3) % 4 == 3 else _in_get(v))
+    names = GSV_NAMES[k]
+    return {n: (_cn0(v, in_get) if i >= 3 and (i - 3) % 4 == 3 else in_get(v))
             for i, (n, v) in enumerate(zip(names, p, strict=False))} | (
         {"signalID": p[3 + 4 * k]} if 3 + 4 * k < len(p) else {})
 
 
-def _plan_decoder(defs: tuple[tuple[str, _Cache], ...]) -> Callable[[list[str]], dict]:
+def _plan_decoder(defs: tuple[tuple[str, Conv], ...], caches: dict[Conv, _Cache]) -> Callable[[list[str]], dict]:
     names = tuple(n for n, _ in defs)
-    caches = tuple(c for _, c in defs)
+    convs = tuple(caches[c] for _, c in defs)
     if "NS" not in names:
         def dec(p: list[str]) -> dict[str, Any]:
-            return dict(zip(names, map(_getitem, caches, p), strict=False))
+            return dict(zip(names, map(_getitem, convs, p), strict=False))
 
         return dec
     ns, ew = names.index("NS"), names.index("EW")
 
     def dec_signed(p: list[str]) -> dict[str, Any]:
-        d = dict(zip(names, map(_getitem, caches, p), strict=False))
+        d = dict(zip(names, map(_getitem, convs, p), strict=False))
         n = len(p)
         if n > ns:  # N/S and E/W set the sign as pynmeagps does: -abs / abs, numbers only
             lat = d["lat"]
@@ -211,13 +210,19 @@ def _plan_decoder(defs: tuple[tuple[str, _Cache], ...]) -> Callable[[list[str]],
     return dec_signed
 
 
-FAST_DECODERS: dict[str, Callable[[list[str]], dict[str, Any]]] = {
-    k: _plan_decoder(v) for k, v in _DEFS.items()
-}
-FAST_DECODERS["GSV"] = _gsv
-FAST_TYPES = frozenset(FAST_DECODERS)
+FAST_TYPES = frozenset(DEFS) | {"GSV"}
 
 
-def decode_fields(msg_id: str, payload: list[str]) -> dict[str, Any]:
-    """Fields for a fast type. Raises ValueError exactly where pynmeagps raises NMEATypeError."""
-    return FAST_DECODERS[msg_id](payload)
+def fast_decoders() -> dict[str, Callable[[list[str]], dict[str, Any]]]:
+    """One field decoder per fast type, sharing a fresh set of bounded conversion caches.
+
+    Each Decoder owns its set (issue 14: caches belong to the pipeline instance, so two pipelines
+    in one process never share or evict each other's entries). Each cache holds at most
+    _CACHE_MAX entries; the conversions are pure functions of the text, so a cache changes no value.
+    """
+    caches = {c: _Cache(c) for c in (_TM, _LA, _IN, _DE, _CH, _DT)}
+    out = {k: _plan_decoder(v, caches) for k, v in DEFS.items()}
+    out["GSV"] = _gsv_decoder(caches[_IN].__getitem__)
+    return out
+
+

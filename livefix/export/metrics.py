@@ -12,37 +12,20 @@ import math
 from collections.abc import Callable, Iterator
 from typing import Any
 
+from livefix.analysis import catalogue
+from livefix.analysis.paths import figure
 from livefix.report.escape import term_text
 
-# (metric name, help, dotted path into the analysis snapshot). Counts of lists use the list length.
-GAUGES: tuple[tuple[str, str, str], ...] = (
-    ("livefix_fix_availability_ratio", "Share of epochs with any fix (0-1)", "derived.fix_share"),
-    ("livefix_ttff_seconds", "Time to first fix", "fix.ttff_s"),
-    ("livefix_ttff_rtk_fixed_seconds", "Time to the first RTK fixed solution", "fix.ttff_rtk_fixed_s"),
-    ("livefix_longest_outage_seconds", "Longest span without a fix", "fix.longest_outage_s"),
-    ("livefix_cep50_meters", "Horizontal 50 % radius", "position.cep50_m"),
-    ("livefix_cep95_meters", "Horizontal 95 % radius", "position.cep95_m"),
-    ("livefix_vertical95_meters", "Vertical 95 % error", "position.v95_m"),
-    ("livefix_cn0_mean_dbhz", "Mean C/N0 of tracked signals (dB-Hz)", "signal.cn0_mean_dbhz"),
-    ("livefix_sky_clear_above_degrees", "Elevation above which the sky is clear", "sky.clear_above_deg"),
-    ("livefix_hdop_computed", "HDOP computed from the satellite geometry", "dop.computed.hdop"),
-    ("livefix_epoch_rate_hertz", "Epochs per second", "stream.rate_hz"),
-)
-COUNTERS: tuple[tuple[str, str, str], ...] = (
-    ("livefix_sentences", "Framed lines", "stream.lines"),
-    ("livefix_checksum_errors", "Sentences refused for a wrong checksum", "stream.bad_checksum"),
-    ("livefix_malformed_sentences", "Sentences refused as malformed", "stream.malformed"),
-    ("livefix_epochs", "Epochs assembled", "stream.epochs"),
-    ("livefix_jumps", "Position jumps", "fix.jumps_total"),
-    ("livefix_outages", "Fix outages", "fix.outages_total"),
-    ("livefix_stalls", "Stream stalls", "stream.stall_count"),
-)
+# (metric name, help, dotted path into the analysis snapshot), generated from the metric catalogue:
+# an entry with a Prometheus name is exported, as a gauge or a counter by its kind.
+GAUGES: tuple[tuple[str, str, str], ...] = tuple((m.prom, m.description, m.path)
+                                                 for m in catalogue.exported("gauge"))
+COUNTERS: tuple[tuple[str, str, str], ...] = tuple((m.prom, m.description, m.path)
+                                                   for m in catalogue.exported("counter"))
 
 
 def _value(analysis: dict[str, Any], path: str) -> float | None:
-    from livefix.report.document import figure
-
-    v = figure(analysis, path)
+    v = figure(analysis, path)[0]
     return v if v is not None and math.isfinite(v) else None
 
 

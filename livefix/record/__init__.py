@@ -2,16 +2,17 @@
 
 Recorder (livefix.record.writer):
     rec = Recorder(path, source="tcp://...", notes="site text", compress=None|"gzip",
-                   rotate_s=None|3600.0, start_wall=None)
+                   rotate_s=None|3600.0, start_wall=None, site=None|SiteInfo.to_json())
     rec.write(item)        # Chunk | LinkEvent | Marker, in stream order; flushes at least once a second
     rec.close()
     rec.error -> str | None   # first write error (disk full ...): recording stops, caller goes on
 Reader (livefix.record.reader):
     r = RecordingReader(path)  # also reads plain NMEA logs (items synthesised, paced by UTC fields)
     r.header -> dict;  for item in r.items(): ...;  r.damage -> str | None after iteration
+    r.site -> dict | None   # the header's site record (livefix.site), None when not recorded
 is_recording(path) -> bool
 
-Details (livefix.record.writer / reader; the byte layout is in livefix/record/FORMAT.md):
+Details (livefix.record.writer / reader; the byte layout is in docs/recording.md):
     Recorder(..., exclusive=True)  # opening raises OSError (an existing file is never overwritten);
                                    # exclusive=False allows devices/FIFOs
     rec.marker(note) -> Marker;  rec.path (current part), rec.paths, rec.records, rec.flush()

@@ -1,4 +1,4 @@
-"""The .lfr record layout shared by writer and reader (see FORMAT.md): one place for the bytes."""
+"""The .lfr record layout shared by writer and reader (docs/recording.md): one place for the bytes."""
 
 from __future__ import annotations
 

@@ -30,7 +30,7 @@ from statistics import median
 
 from livefix.dates import CONFIRM_EPOCHS, date_problem, jump_limit
 from livefix.items import Chunk, Item, Link, LinkEvent
-from livefix.record.linetime import LineTime, line_time, pieces
+from livefix.record.linetime import TIMED_KINDS, LineTime, line_blocks, line_time, pieces
 
 CHUNK_MAX = 65536
 HOLD_MAX = 1 << 20
@@ -113,6 +113,22 @@ class PlainStamper:
         if len(self._seg) >= CHUNK_MAX:
             self._close_seg()
         return self._release()
+
+    def feed_lines(self, lines: list[bytes]) -> list[Item]:
+        """feed() for each line, the same items: a line that cannot carry a time (one sentence, not
+        of a timed type) only joins the current stamp, so nothing else is done for it then."""
+        out: list[Item] = []
+        seg, timed, free = self._seg, TIMED_KINDS, self._jump is None
+        for line in lines:
+            if free and (line[3:6] not in timed or line[:1] != b"$") and line.find(b"$", 1) < 0:
+                seg += line
+                if len(seg) >= CHUNK_MAX:
+                    self._close_seg()
+                    out += self._release()
+            else:
+                out += self.feed(line)
+                free = self._jump is None
+        return out
 
     def finish(self) -> list[Item]:
         if self._jump is not None:
@@ -381,9 +397,6 @@ class PlainStamper:
 def iter_plain(f, limit: int = CHUNK_MAX) -> Iterator[Item]:  # noqa: ANN001 - binary file
     """Stamped items from a binary file object of NMEA text (any junk kept)."""
     st = PlainStamper()
-    while True:
-        line = f.readline(limit)
-        if not line:
-            break
-        yield from st.feed(line)
+    for lines in line_blocks(f, limit):
+        yield from st.feed_lines(lines)
     yield from st.finish()

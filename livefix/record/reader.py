@@ -127,6 +127,13 @@ class RecordingReader:
             with open(self.first, "rb"):
                 pass
 
+    @property
+    def site(self) -> dict | None:
+        """The site record the recorder kept (livefix.site JSON), None for plain logs and for
+        recordings made before the header had one."""
+        site = self.header.get("site")
+        return site if isinstance(site, dict) else None
+
     def items(self) -> Iterator[Item]:
         """Every recorded item in order, across rotated parts; sets `damage` on a bad tail."""
         if not self.recording:

@@ -11,7 +11,9 @@ import os
 import threading
 import time
 import zlib
+from collections.abc import Mapping
 from pathlib import Path
+from typing import Any
 
 from livefix import __version__
 from livefix.items import Item, Marker
@@ -26,15 +28,18 @@ class Recorder:
     def __init__(self, path: str | os.PathLike, source: str = "", notes: str = "",
                  compress: str | None = None, rotate_s: float | None = None,
                  start_wall: float | None = None, *, exclusive: bool = True,
-                 flush_s: float = FLUSH_S) -> None:
+                 flush_s: float = FLUSH_S, site: Mapping[str, Any] | None = None) -> None:
         """Open the first file (raises OSError if it cannot be created: an existing file is never
-        overwritten unless exclusive=False, which also allows devices and FIFOs)."""
+        overwritten unless exclusive=False, which also allows devices and FIFOs). `site` is the
+        site record (livefix.site.SiteInfo.to_json()), kept in every part's header so a replay
+        reports the installation it was made at."""
         if compress not in (None, "gzip"):
             raise ValueError(f"unknown compression {compress!r}: use gzip or none")
         if rotate_s is not None and rotate_s <= 0:
             raise ValueError("rotation interval must be positive")
         self.source, self.notes, self.compress, self.rotate_s = source, notes, compress, rotate_s
         self.exclusive = exclusive
+        self.site = dict(site) if site else None
         self.error: str | None = None
         self.records = 0
         self.bytes_in = 0  # payload bytes recorded (before compression)
@@ -70,6 +75,8 @@ class Recorder:
         head = {"source": self.source, "start_wall": round(wall, 6), "start_utc": iso(wall),
                 "livefix": __version__, "notes": self.notes, "part": num,
                 "rotate_s": self.rotate_s, "compress": self.compress}
+        if self.site:
+            head["site"] = self.site
         self._buf += fmt.header_line(head)
         try:
             self._flush_locked()

@@ -12,11 +12,14 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from livefix import __version__
-from livefix.analysis import paths
+from livefix.analysis import catalogue, paths
 from livefix.faults import report_line
+from livefix.report.figures import file_sha256, record
+from livefix.site import SiteInfo
+from livefix.site import coerce as coerce_site
 from livefix.timefmt import iso
 
-FORMAT = "livefix-report/1"
+FORMAT = "livefix-report/2"  # 2: meta.site is the site record object; receivers carry `record`
 
 CAUTIONS = (
     "Work at height: antennas sit on roofs, masts and towers. Follow the local rules for work at "
@@ -28,28 +31,8 @@ CAUTIONS = (
     "Local codes, permits and licensed practice take precedence over anything in this report.",
 )
 
-# Comparison table rows: (label, dotted path, unit, digits). Paths go through the profile grammar.
-KEY_FIGURES: tuple[tuple[str, str, str, int], ...] = (
-    ("Epochs", "stream.epochs", "", 0),
-    ("Fix availability (whole run)", "derived.fix_share", "ratio", 4),
-    ("RTK fixed share (whole run)", "fix.availability.rtk_fixed", "ratio", 4),
-    ("TTFF", "fix.ttff_s", "s", 1),
-    ("Time to RTK fixed", "fix.ttff_rtk_fixed_s", "s", 1),
-    ("CEP50", "position.cep50_m", "m", 3),
-    ("CEP95", "position.cep95_m", "m", 3),
-    ("Vertical 95 %", "position.v95_m", "m", 3),
-    ("Longest outage", "fix.longest_outage_s", "s", 1),
-    ("Jumps", "fix.jumps_total", "count", 0),
-    ("Position jumps left out of the scatter", "position.jumps.count", "count", 0),
-    ("Share of the session moving", "motion.moving_share", "ratio", 3),
-    ("Convergence after first fix", "position.convergence_s", "s", 1),
-    ("Horizontal drift", "derived.drift_h_mm_per_h", "mm/h", 1),
-    ("Stalls", "stream.stall_count", "count", 0),
-    ("Checksum errors", "stream.bad_checksum", "count", 0),
-    ("Mean C/N0", "signal.cn0_mean_dbhz", "dB-Hz", 1),
-    ("Clear sky above", "sky.clear_above_deg", "deg", 0),
-    ("Computed HDOP", "dop.computed.hdop", "", 2),
-)
+# Comparison table rows: (label, dotted path, unit, digits), from the metric catalogue.
+KEY_FIGURES: tuple[tuple[str, str, str, int], ...] = catalogue.key_figures()
 
 
 @dataclass(slots=True)
@@ -98,8 +81,19 @@ def figure(analysis: dict[str, Any], path: str) -> float | None:
     return paths.figure(analysis, path)[0]
 
 
-def build_report(runs: list[ReceiverRun], *, profile: Any = None, site: str = "", notes: str = "",
-                 ref: tuple[float, float, float] | None = None, started: float | None = None,
+def _site(site: SiteInfo | str, runs: list[ReceiverRun]) -> dict[str, Any]:
+    """meta.site: the site record as JSON (livefix.site), with what a single receiver announced
+    about itself (TXT: analysis `receiver`) where the user gave no model or firmware."""
+    info = coerce_site(site)
+    said = (runs[0].analysis or {}).get("receiver") if len(runs) == 1 else None
+    if isinstance(said, dict):
+        info = info.with_announced({"receiver_model": said.get("model"), "receiver_firmware": said.get("firmware")})
+    return info.to_json()
+
+
+def build_report(runs: list[ReceiverRun], *, profile: Any = None, site: SiteInfo | str = "", notes: str = "",
+                 ref: tuple[float, float, float] | None = None, ref_source: str = "--ref",
+                 started: float | None = None,
                  ended: float | None = None, complete: bool = True, incomplete_reason: str = "",
                  command: str = "") -> dict[str, Any]:
     """The whole document. `profile` is a livefix.check.profile.Profile or None (no verdict)."""
@@ -114,8 +108,8 @@ def build_report(runs: list[ReceiverRun], *, profile: Any = None, site: str = ""
             verdict = "inconclusive"  # nothing failed; some intervals straddle their limits
     meta = {
         "livefix_version": __version__, "generated": iso(time.time()), "command": command,
-        "site": site, "notes": notes,
-        "ref": None if ref is None else {"lat": ref[0], "lon": ref[1], "h": ref[2]},
+        "site": _site(site, runs), "notes": notes,
+        "ref": None if ref is None else {"lat": ref[0], "lon": ref[1], "h": ref[2], "source": ref_source},
         "profile": None if profile is None else {
             "name": profile.name, "title": profile.title, "origin": profile.origin,
             "description": profile.description, "source": profile.source},
@@ -125,12 +119,15 @@ def build_report(runs: list[ReceiverRun], *, profile: Any = None, site: str = ""
     }
     receivers = []
     for r in runs:
+        results = None if r.results is None else [x.to_json() for x in r.results]
+        sha, size = file_sha256(r.source)
         receivers.append({
             "name": r.name, "source": r.source, "recording": r.recording,
             "recording_error": r.recording_error, "link": r.link, "link_detail": r.link_detail,
             "verdict": ("incomplete" if not complete and r.verdict else r.verdict),
-            "results": None if r.results is None else [x.to_json() for x in r.results],
-            "ttff_cycles": r.ttff_cycles, "analysis": r.analysis, **r.extra})
+            "results": results, "ttff_cycles": r.ttff_cycles,
+            "record": record(r.analysis, meta, source=r.source, results=results, sha256=sha, size=size),
+            "analysis": r.analysis, **r.extra})
     return {"format": FORMAT, "meta": meta, "verdict": verdict, "receivers": receivers,
             "comparison": comparison(runs), "cautions": list(CAUTIONS)}
 
@@ -202,12 +199,14 @@ def internal_errors(report: dict[str, Any]) -> int:
     return sum(int((r.get("analysis") or {}).get("internal_errors") or 0) for r in report.get("receivers", []))
 
 
-def meta_facts(report: dict[str, Any]) -> list[tuple[str, str]]:
-    """The run's facts as (label, plain text) rows, shared by the Markdown and HTML documents."""
+def meta_facts(report: dict[str, Any], site_rows: bool = True) -> list[tuple[str, str]]:
+    """The run's facts as (label, plain text) rows, shared by the Markdown and HTML documents
+    (`site_rows` False: without the site record, for a document that shows it as its own section)."""
     meta = report["meta"]
     prof = meta.get("profile")
-    facts = [("Site", meta.get("site") or "-"), ("Notes", meta.get("notes") or "-"),
-             ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none (figures only)"),
+    site = coerce_site(meta.get("site")).rows() if site_rows else []
+    facts = [*site, ("Report notes", meta.get("notes") or "-"),
+             ("Profile", f"{prof['name']} ({prof['origin']})" if prof else "none: no limits set (figures only)"),
              ("Run started", meta.get("started") or "-"), ("Run ended", meta.get("ended") or "-"),
              ("Run time", fmt_value(meta.get("duration_s"), 0, "s")),
              ("Data", data_span(report)),

@@ -15,7 +15,11 @@ _CONTROL = re.compile("[\x00-\x08\x0b-\x1f\x7f-\x9f\u200b-\u200f\u202a-\u202e\u2
 _CONTROL_NL = re.compile("[\x00-\x1f\x7f-\x9f\u200b-\u200f\u202a-\u202e\u2066-\u2069\ufeff]")
 # Characters XML 1.0 forbids entirely (even as references), plus surrogates and U+FFFE/FFFF.
 _XML_BAD = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\ud800-\udfff\ufffe\uffff]")
-_MD_SPECIAL = re.compile(r"([\\`*_{}\[\]()#|~])")  # < > & are made entities first
+# Markdown punctuation, raw-HTML starts (< >) and entity starts (&): CommonMark lets a backslash make
+# any ASCII punctuation literal, so text stays readable as plain text too (no &gt; entities)
+# (parentheses need none once brackets are escaped: no link can form)
+_MD_SPECIAL = re.compile(r"([\\`*_\[\]|~<>&])")
+_MD_LEAD = re.compile(r"^(\s*\d*)([-+=.)])(?=\s|$|[-=]+\s*$)|^(\s*)(#)")  # list item, setext, rule, heading
 
 
 def _visible(m: re.Match[str]) -> str:
@@ -48,6 +52,6 @@ def xml_text(value: object) -> str:
 
 def md_text(value: object) -> str:
     """Text for a Markdown paragraph or table cell: markup characters and raw HTML made inert."""
-    text = term_text(value)
-    text = html.escape(text, quote=False)  # raw HTML in Markdown would be rendered
-    return _MD_SPECIAL.sub(r"\\\1", text)
+    # leading blanks would start an indented code block (CommonMark 0.31 section 4.4); they carry nothing
+    text = _MD_SPECIAL.sub(r"\\\1", term_text(value).lstrip(" \t"))
+    return _MD_LEAD.sub(lambda m: f"{m.group(1) or m.group(3) or ''}\\{m.group(2) or m.group(4)}", text)

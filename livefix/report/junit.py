@@ -13,6 +13,7 @@ from typing import Any
 
 from livefix.report.document import fmt_value
 from livefix.report.escape import xml_text as x
+from livefix.site import site_name
 
 
 def _case(suite: ET.Element, classname: str, name: str) -> ET.Element:
@@ -60,7 +61,7 @@ def render_junit(report: dict[str, Any]) -> str:
                              "errors": str(e), "skipped": "0", "time": f"{meta.get('duration_s') or 0:.3f}",
                              "timestamp": x(stamp or "1970-01-01T00:00:00"), "hostname": host})
         props = ET.Element("properties")
-        for k, v in (("source", rx.get("source")), ("site", meta.get("site")), ("livefix", meta.get("livefix_version"))):
+        for k, v in (("source", rx.get("source")), ("site", site_name(meta.get("site"))), ("livefix", meta.get("livefix_version"))):
             ET.SubElement(props, "property", {"name": k, "value": x(v)})
         suite.insert(0, props)
         total, fails, errors = total + n, fails + f, errors + e

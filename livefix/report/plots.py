@@ -1,209 +1,175 @@
-"""Report plots as inline SVG text, made with matplotlib (imported lazily, Agg backend).
+"""Report plots, made with matplotlib (imported lazily, Agg backend), as inline SVG or PNG.
 
 Each plot is drawn from the snapshot dict alone; a plot whose data is missing or odd is replaced by
-a one-line note, never an exception, so a damaged recording still gives a report.
+a one-line note, never an exception, so a damaged recording still gives a report. The look (one
+colour and marker per constellation and per fix type, UTC clock-time axes) lives in plot_style;
+the sky plot in plots_sky, the plots against time in plots_time.
 """
 
 from __future__ import annotations
 
-import datetime as _dt
-import io
 import math
-import re
 from collections.abc import Callable
 from typing import Any
 
-_XML_HEAD = re.compile(r"^.*?(<svg\b)", re.S)
+from livefix.report.plot_style import GREY, VERMILION, fix_style, num, plt, render, system_style
+from livefix.report.plots_sky import sky_plot
+from livefix.report.plots_time import position_time, signal_time
 
 
-def _plt() -> Any:
-    import matplotlib
-
-    matplotlib.use("Agg", force=True)
-    import matplotlib.pyplot as plt
-
-    matplotlib.rcParams.update({"svg.fonttype": "none", "svg.hashsalt": "livefix", "font.size": 9,
-                                "figure.dpi": 96})
-    return plt
+def _pts(s: dict[str, Any] | None) -> list[tuple[float, float]]:
+    s = s or {}
+    return [(x, y) for x, y in zip(s.get("e") or [], s.get("n") or [], strict=False) if num(x) and num(y)]
 
 
-def _svg(fig: Any) -> str:
-    plt = _plt()
-    buf = io.StringIO()
-    fig.savefig(buf, format="svg", bbox_inches="tight")
-    plt.close(fig)
-    return _XML_HEAD.sub(r"\1", buf.getvalue(), count=1)
-
-
-def _num(v: Any) -> bool:
-    return isinstance(v, int | float) and not isinstance(v, bool) and math.isfinite(v)
-
-
-def scatter(a: dict[str, Any]) -> str:
+def scatter(a: dict[str, Any]) -> Any:
+    """Horizontal scatter, one colour per fix type, with the headline fix type's CEP circles; when
+    the other fix types spread ten times wider, a second panel zooms on the headline type."""
     pos = a.get("position") or {}
-    s = pos.get("samples") or {}
-    e, n = s.get("e") or [], s.get("n") or []
-    pts = [(x, y) for x, y in zip(e, n, strict=False) if _num(x) and _num(y)]
-    if not pts:
+    if pos.get("not_measured"):  # e.g. "receiver moving": a static scatter would mislead
+        raise ValueError(str(pos["not_measured"]))
+    head = str(pos.get("fix") or "")
+    series = [(head, _pts(pos.get("samples")))]
+    series += [(str(k), _pts(v)) for k, v in (pos.get("samples_by_fix") or {}).items()]
+    series = [(k, p) for k, p in series if p]
+    if not series:
         raise ValueError("no position samples")
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(5, 5))
-    ax.scatter([p[0] for p in pts], [p[1] for p in pts], s=4, alpha=0.5, color="#3465a4", label="epochs")
-    # circles about the centroid of the drawn epochs: CEP describes the scatter about the mean
-    ce, cn = sum(p[0] for p in pts) / len(pts), sum(p[1] for p in pts) / len(pts)
+    head_pts = series[0][1] if series[0][0] == head else []
+    samples = pos.get("samples") or {}
+    ce, cn = samples.get("mean_e"), samples.get("mean_n")
+    if not (num(ce) and num(cn)) and head_pts:  # circles about the scatter centre: CEP is about the mean
+        ce, cn = sum(p[0] for p in head_pts) / len(head_pts), sum(p[1] for p in head_pts) / len(head_pts)
+    cep95 = pos.get("cep95_m")
+    spread = max(max(abs(x), abs(y)) for _, pts in series for x, y in pts)
+    zoom = bool(head_pts) and len(series) > 1 and num(cep95) and spread > 30 * cep95
+    pyplot = plt()
+    if zoom:
+        fig, (ax, axz) = pyplot.subplots(1, 2, figsize=(9.0, 4.4))
+    else:
+        fig, ax = pyplot.subplots(figsize=(5.6, 5.0))
+        axz = None
+    by_fix = pos.get("by_fix") or {}
+    ref_label = "surveyed point" if (pos.get("ref") or {}).get("source") == "user" else "reference"
+    for target, part in ((ax, series), (axz, series[:1])):
+        if target is None:
+            continue
+        for name, pts in sorted(part, key=lambda kp: kp[0] == head):  # the headline drawn last, on top
+            st = fix_style(name)
+            share = (by_fix.get(name) or {}).get("share")
+            label = st.label + (f" ({share:.0%} of fixed epochs)" if num(share) else "")
+            target.scatter([p[0] for p in pts], [p[1] for p in pts], s=6, marker=st.marker, alpha=0.5, lw=0,
+                           color=st.colour, label=label if target is ax else None)
+        target.scatter([0], [0], marker="+", s=80, color=VERMILION, lw=1.5, zorder=4,
+                       label=ref_label if target is ax else None)
+        target.set_aspect("equal", adjustable="datalim")
+        target.set_xlabel("east (m)")
+        target.set_ylabel("north (m)")
+        target.grid(True, alpha=0.3)
+    circles = axz if axz is not None else ax
     for key, style, label in (("cep50_m", "-", "CEP50"), ("cep95_m", "--", "CEP95")):
         r = pos.get(key)
-        if _num(r):
-            ax.add_patch(plt.Circle((ce, cn), r, fill=False, ls=style, color="#cc0000", lw=1.2))
-            ax.plot([], [], ls=style, color="#cc0000", label=f"{label} {r:.3f} m")
-    ax.set_aspect("equal", adjustable="datalim")
-    ax.set_xlabel("east (m)")
-    ax.set_ylabel("north (m)")
-    ref = pos.get("ref") or {}
-    ax.set_title(f"Horizontal scatter about the {'surveyed point' if ref.get('source') == 'user' else 'mean'}")
-    ax.grid(True, alpha=0.3)
-    ax.legend(loc="upper right", fontsize=8)
-    return _svg(fig)
+        if num(r) and num(ce) and num(cn):
+            circles.add_patch(pyplot.Circle((ce, cn), r, fill=False, ls=style, color="black", lw=1.2))
+            ax.plot([], [], ls=style, color="black", label=f"{label} {fix_style(head).label}: {_m(r)}")
+    ax.set_title("Horizontal scatter by fix type")
+    if axz is not None:
+        half = 3 * float(cep95)
+        axz.set_xlim(ce - half, ce + half)
+        axz.set_ylim(cn - half, cn + half)
+        axz.set_aspect("equal", adjustable="box")
+        axz.set_title(f"{fix_style(head).label} only, zoomed (±{_m(half)})")
+        ax.legend(loc="upper center", bbox_to_anchor=(1.1, -0.14), ncols=3, frameon=False)
+    else:
+        ax.legend(loc="upper left", bbox_to_anchor=(1.02, 1.0), frameon=False)
+    return fig
 
 
-def _grid_rows(grid: dict[str, Any], key: str) -> tuple[list[list[float]], float, float]:
-    rows = grid.get(key) or []
-    az_step, el_step = float(grid.get("az_step") or 0), float(grid.get("el_step") or 0)
-    if not rows or az_step <= 0 or el_step <= 0:
-        raise ValueError("no sky grid")
-    if len(rows) == round(90 / el_step) and len(rows) != round(360 / az_step):  # elevation-major
-        rows = [list(col) for col in zip(*rows, strict=False)]
-    return [[float(v) if _num(v) else 0.0 for v in r] for r in rows], az_step, el_step
+def _m(r: float) -> str:
+    return f"{r * 100:.1f} cm" if r < 1 else f"{r:.2f} m"
 
 
-def sky_map(a: dict[str, Any]) -> str:
-    import numpy as np
-
-    sky = a.get("sky") or {}
-    grid = sky.get("grid") or {}
-    tracked, az_step, el_step = _grid_rows(grid, "tracked")
-    try:
-        untracked, _, _ = _grid_rows(grid, "untracked")
-    except ValueError:
-        untracked = [[0.0] * len(r) for r in tracked]
-    plt = _plt()
-    fig = plt.figure(figsize=(5, 5))
-    ax = fig.add_subplot(projection="polar")
-    ax.set_theta_zero_location("N")
-    ax.set_theta_direction(-1)
-    n_az, n_el = len(tracked), max(len(r) for r in tracked)
-    share = np.zeros((n_az, n_el))
-    for i in range(n_az):
-        for j in range(len(tracked[i])):
-            t = tracked[i][j]
-            u = untracked[i][j] if i < len(untracked) and j < len(untracked[i]) else 0.0
-            share[i, j] = t / (t + u) if t + u > 0 else np.nan
-    theta = np.radians(np.arange(n_az + 1) * az_step)
-    radius = 90.0 - np.arange(n_el + 1) * el_step
-    mesh = ax.pcolormesh(theta, radius, share.T, cmap="RdYlGn", vmin=0, vmax=1, shading="flat")
-    for sec in sky.get("obstructed") or []:
-        f, t, below = sec.get("az_from"), sec.get("az_to"), sec.get("below_el")
-        if _num(f) and _num(t) and _num(below):
-            span = (t - f) % 360 or 360
-            ax.bar(math.radians(f + span / 2), below, width=math.radians(span), bottom=90 - below,
-                   fill=False, edgecolor="black", hatch="//", lw=0.8)
-    ax.set_rlim(0, 90)
-    ax.set_rticks([80, 60, 40, 20, 0], labels=["10", "30", "50", "70", "90"])
-    ax.set_title("Sky view: share of passes tracked (hatched: obstructed)")
-    fig.colorbar(mesh, ax=ax, shrink=0.7, label="tracked share")
-    return _svg(fig)
-
-
-def cn0_elevation(a: dict[str, Any]) -> str:
+def cn0_elevation(a: dict[str, Any]) -> Any:
+    """C/N0 against elevation: samples by constellation, band means, and the session's expected
+    curve a + b·sin(el) (livefix.analysis.signal)."""
     sig = a.get("signal") or {}
-    bands = [b for b in sig.get("by_elevation") or [] if _num(b.get("from")) and _num(b.get("to"))
-             and _num(b.get("mean"))]
-    if not bands:
+    bands = [b for b in sig.get("by_elevation") or [] if num(b.get("from")) and num(b.get("to"))
+             and num(b.get("mean"))]
+    tracks = ((a.get("trend") or {}).get("sky_tracks") or {}).get("sats") or []
+    if not bands and not tracks:
         raise ValueError("no C/N0 by elevation")
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(6, 3.5))
-    ax.bar([(b["from"] + b["to"]) / 2 for b in bands], [b["mean"] for b in bands],
-           width=[(b["to"] - b["from"]) * 0.9 for b in bands], color="#73d216", label="mean C/N0 per band")
-    weak = [w for w in sig.get("weak") or [] if _num(w.get("elev")) and _num(w.get("cn0"))]
+    pyplot = plt()
+    fig, ax = pyplot.subplots(figsize=(7.0, 3.8))
+    by_sys: dict[str, tuple[list[float], list[float]]] = {}
+    for sat in tracks:
+        xs, ys = by_sys.setdefault(str(sat.get("system") or "?"), ([], []))
+        for e, c in zip(sat.get("el") or [], sat.get("cn0") or [], strict=False):
+            if num(e) and num(c):
+                xs.append(e)
+                ys.append(c)
+    for letter in sorted(by_sys, key=lambda s: ("GRECJIS".find(s) % 8, s)):
+        xs, ys = by_sys[letter]
+        if xs:
+            st = system_style(letter)
+            ax.scatter(xs, ys, s=6, marker=st.marker, color=st.colour, alpha=0.45, lw=0, label=st.label)
+    if bands:
+        ax.hlines([b["mean"] for b in bands], [b["from"] for b in bands], [b["to"] for b in bands],
+                  color="black", lw=2.2, label="mean per elevation band")
+    cv = sig.get("curve") or {}
+    if num(cv.get("a")) and num(cv.get("b")):
+        el = list(range(0, 91, 2))
+        ax.plot(el, [cv["a"] + cv["b"] * math.sin(math.radians(e)) for e in el], color=GREY, ls="--", lw=1.4,
+                label=f"expected: {cv['a']:.1f} + {cv['b']:.1f}·sin(el) dB-Hz")
+    weak = [w for w in sig.get("weak") or [] if num(w.get("elev")) and num(w.get("cn0"))]
     if weak:
-        ax.scatter([w["elev"] for w in weak], [w["cn0"] for w in weak], color="#cc0000", s=12, zorder=3,
-                   label="weak signals")
-    ax.set_xlabel("elevation (deg)")
+        ax.scatter([w["elev"] for w in weak], [w["cn0"] for w in weak], facecolors="none", edgecolors=VERMILION,
+                   s=40, lw=1.2, zorder=4, label="weak now (below expected)")
+    ax.set_xlabel("elevation (°)")
     ax.set_ylabel("C/N0 (dB-Hz)")
     ax.set_xlim(0, 90)
     ax.set_title("C/N0 against elevation")
     ax.grid(True, alpha=0.3)
-    ax.legend(fontsize=8)
-    return _svg(fig)
+    ax.legend(loc="upper left", bbox_to_anchor=(1.01, 1.0), frameon=False, markerscale=2)
+    return fig
 
 
-def _times(ts: list[Any]) -> list[Any]:
-    out: list[Any] = []
-    for t in ts:
-        if isinstance(t, str):
-            out.append(_dt.datetime.fromisoformat(t.replace("Z", "+00:00")))
-        else:
-            out.append(float(t) if _num(t) else math.nan)
-    return out
-
-
-def trend(a: dict[str, Any]) -> str:
-    tr = a.get("trend") or {}
-    t = _times(list(tr.get("t") or []))
-    if not t:
-        raise ValueError("no trend data")
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(7, 3.5))
-    err = [v if _num(v) else math.nan for v in (tr.get("h_err_m") or [])][: len(t)]
-    ax.plot(t[: len(err)], err, color="#3465a4", lw=1, label="horizontal error (m)")
-    ax.set_ylabel("horizontal error (m)")
-    ax2 = ax.twinx()
-    sats = [v if _num(v) else math.nan for v in (tr.get("sats_used") or [])][: len(t)]
-    ax2.step(t[: len(sats)], sats, color="#f57900", lw=1, where="post", label="satellites used")
-    ax2.set_ylabel("satellites used")
-    ax.set_xlabel("time (UTC)" if isinstance(t[0], _dt.datetime) else "time (s)")
-    ax.set_title("Error and satellites over time")
-    ax.grid(True, alpha=0.3)
-    fig.autofmt_xdate()
-    return _svg(fig)
-
-
-def allan(a: dict[str, Any]) -> str:
+def allan(a: dict[str, Any]) -> Any:
     al = (a.get("position") or {}).get("allan") or {}
-    tau = [float(x) for x in al.get("tau_s") or [] if _num(x)]
+    tau = [float(x) for x in al.get("tau_s") or [] if num(x)]
     if len(tau) < 2:
         raise ValueError("too few Allan deviation points")
-    plt = _plt()
-    fig, ax = plt.subplots(figsize=(6, 3.5))
-    for key, colour in (("e", "#3465a4"), ("n", "#73d216"), ("u", "#cc0000")):
+    pyplot = plt()
+    fig, ax = pyplot.subplots(figsize=(6, 3.5))
+    for key, label, ls in (("e", "east", "-"), ("n", "north", "--"), ("u", "up", "-.")):
         ys = al.get(key) or []
-        pts = [(x, y) for x, y in zip(tau, ys, strict=False) if _num(y) and y > 0]
+        pts = [(x, y) for x, y in zip(tau, ys, strict=False) if num(y) and y > 0]
         if pts:
-            ax.loglog([p[0] for p in pts], [p[1] for p in pts], marker="o", ms=3, color=colour,
-                      label={"e": "east", "n": "north", "u": "up"}[key])
+            ax.loglog([p[0] for p in pts], [p[1] for p in pts], marker="o", ms=3, ls=ls, color="black",
+                      label=label)
     ax.set_xlabel("averaging time tau (s)")
     ax.set_ylabel("Allan deviation (m)")
     ax.set_title("Position stability (overlapping Allan deviation)")
     ax.grid(True, which="both", alpha=0.3)
-    ax.legend(fontsize=8)
-    return _svg(fig)
+    ax.legend()
+    return fig
 
 
-PLOTS: tuple[tuple[str, str, Callable[[dict[str, Any]], str]], ...] = (
-    ("scatter", "Horizontal scatter with CEP circles", scatter),
-    ("sky", "Sky obstruction map", sky_map),
-    ("cn0", "C/N0 against elevation", cn0_elevation),
-    ("trend", "Error and satellites over time", trend),
+PLOTS: tuple[tuple[str, str, Callable[[dict[str, Any]], Any]], ...] = (
+    ("sky", "Sky plot: satellite paths by constellation and obstructions", sky_plot),
+    ("scatter", "Horizontal scatter by fix type with CEP circles", scatter),
+    ("position-time", "Position offsets and height against time, with outages and jumps", position_time),
+    ("cn0", "C/N0 against elevation with the expected curve", cn0_elevation),
+    ("signal-time", "Satellites used and C/N0 against time", signal_time),
     ("allan", "Allan deviation", allan),
 )
 
 
-def make_plots(analysis: dict[str, Any]) -> list[dict[str, str]]:
-    """[{id, title, svg}] or {id, title, note} when a plot cannot be drawn."""
-    out = []
+def make_plots(analysis: dict[str, Any], fmt: str = "svg") -> list[dict[str, Any]]:
+    """[{id, title, svg|png}] or {id, title, note} when a plot cannot be drawn."""
+    out: list[dict[str, Any]] = []
     for pid, title, fn in PLOTS:
         try:
-            out.append({"id": pid, "title": title, "svg": fn(analysis)})
+            out.append({"id": pid, "title": title, fmt: render(fn(analysis), fmt)})
         except Exception as exc:  # noqa: BLE001 - a plot never sinks the report
+            plt().close("all")
             out.append({"id": pid, "title": title, "note": f"not drawn: {exc}"})
     return out

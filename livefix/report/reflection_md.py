@@ -22,12 +22,18 @@ def reflection_section(refl: dict[str, Any] | None) -> list[str]:
     if not refl:
         return []
     cfg = refl.get("config") or {}
-    out = ["### Reflections (GNSS-IR)", "", md_text(refl.get("advice", "")), "",
-           f"Reflector height {md_text(fmt_value(refl.get('height_m'), 2, 'm'))} (median of {refl.get('arcs', 0)} "
-           f"accepted arc{'' if refl.get('arcs') == 1 else 's'}, spread {md_text(fmt_value(refl.get('spread_m'), 2, 'm'))}); multipath "
-           f"{md_text(fmt_value(refl.get('mp_db'), 1, 'dB'))} peak to peak; {refl.get('arcs_evaluated', 0)} arcs "
-           f"evaluated between {cfg.get('el_min_deg', '?')} and {cfg.get('el_max_deg', '?')} deg elevation, "
-           f"{refl.get('arcs_in_progress', 0)} in progress.", ""]
+    out = ["### Reflections (GNSS-IR)", "", md_text(refl.get("advice", "")), ""]
+    if refl.get("status") == "none found":  # multipath 0: the figure a profile limit reads
+        out += [f"Multipath {md_text(fmt_value(refl.get('mp_db'), 1, 'dB'))}: no arc of {refl.get('arcs_evaluated', 0)} "
+                f"showed an oscillation above the detection floor of "
+                f"{md_text(fmt_value(refl.get('mp_floor_db'), 2, 'dB'))} peak to peak.", ""]
+    else:
+        out += [f"Reflector height {md_text(fmt_value(refl.get('height_m'), 2, 'm'))} (median of {refl.get('arcs', 0)} "
+                f"accepted arc{'' if refl.get('arcs') == 1 else 's'}, spread "
+                f"{md_text(fmt_value(refl.get('spread_m'), 2, 'm'))}); multipath "
+                f"{md_text(fmt_value(refl.get('mp_db'), 1, 'dB'))} peak to peak; {refl.get('arcs_evaluated', 0)} arcs "
+                f"evaluated between {cfg.get('el_min_deg', '?')} and {cfg.get('el_max_deg', '?')} deg elevation, "
+                f"{refl.get('arcs_in_progress', 0)} in progress.", ""]
     sectors = refl.get("sectors") or []
     if sectors:
         out += [_row(["Azimuth", "Arcs", "Height", "Spread", "Multipath"]), _row(["---"] * 5)]

@@ -16,8 +16,9 @@ from livefix.report.markdown import render_markdown
 
 
 def write_all(report: dict[str, Any], out_dir: str | Path, formats: tuple[str, ...] = ("json", "md", "html"),
-              junit: bool = False) -> list[Path]:
-    """Write the chosen documents into out_dir; returns the paths written."""
+              junit: bool = False, pdf: bool = False) -> list[Path]:
+    """Write the chosen documents into out_dir; returns the paths written. `pdf` needs the
+    optional fpdf2 library (livefix.report.pdf.PdfUnavailable otherwise: check before the run)."""
     out = Path(out_dir)
     out.mkdir(parents=True, exist_ok=True)
     written = []
@@ -29,11 +30,18 @@ def write_all(report: dict[str, Any], out_dir: str | Path, formats: tuple[str, .
         written.append(_write(out / "report.html", render_html(report)))
     if junit:
         written.append(_write(out / "junit.xml", render_junit(report)))
+    if pdf:
+        from livefix.report.pdf import render_pdf
+
+        written.append(_write(out / "report.pdf", render_pdf(report)))
     return written
 
 
-def _write(path: Path, text: str) -> Path:
+def _write(path: Path, data: str | bytes) -> Path:
     tmp = path.with_name(path.name + ".tmp")
-    tmp.write_text(text, encoding="utf-8")
+    if isinstance(data, bytes):
+        tmp.write_bytes(data)
+    else:
+        tmp.write_text(data, encoding="utf-8")
     tmp.replace(path)
     return path

@@ -22,16 +22,16 @@ import numpy as np
 from livefix.sim import nmea, rtcm
 
 # RINEX letter order of the NMEA 4.10+ system IDs (1 GPS, 2 GLONASS, 3 Galileo, 4 BeiDou;
-# REFERENCES.md "NMEA 0183"): GNS gives one mode letter per system in this order.
+# docs/sources.md#system-ids): GNS gives one mode letter per system in this order.
 SYS_ORDER = ("G", "R", "E", "C")
 SYS_BY_ID = {str(v): k for k, v in nmea.SYSTEM_ID.items()}
-# Satellite numbers a receiver without system IDs writes in GSA (REFERENCES.md "NMEA satellite
-# numbering before system IDs", memory): GPS 1-32, GLONASS 65-96 (already so in our 4.11 GSA),
+# Satellite numbers a receiver without system IDs writes in GSA (docs/sources.md#satellite-numbers,
+# from memory): GPS 1-32, GLONASS 65-96 (already so in our 4.11 GSA),
 # Galileo 301-336, BeiDou 201-263 or 401-463. Receivers differ in the BeiDou block and the talker:
 # odd seeds write GP and BeiDou 2xx, even seeds GN and BeiDou 4xx.
 PRE410_OFFSET = {"G": 0, "R": 0, "E": 300, "C": 200}
 PRE410_EVEN = {"talker": "GN", "C": 400}
-# Dates a receiver writes before it knows the date (REFERENCES.md "Real receivers and time"):
+# Dates a receiver writes before it knows the date (docs/sources.md#default-dates):
 # the GPS time origin and 2000-01-01. Odd seeds use the first, even seeds the second.
 DEFAULT_DATES = (_dt.date(1980, 1, 6), _dt.date(2000, 1, 1))
 ZDA_LATE_S = 0.05  # zda-late: ZDA stamped 50 ms after the time of fix it follows (issue 13)

@@ -7,7 +7,7 @@ values below are invented but plausible (common practice: metre level autonomous
 DGNSS/float, about a centimetre RTK fixed).
 
 C/N0: rises with the sine of elevation from `cn0_5deg` at 5° to `cn0_zenith` at 90° (defaults 32
-and 48 dB-Hz bracket the typical 37–45 dB-Hz of REFERENCES.md), plus a per-satellite offset and
+and 48 dB-Hz bracket the typical 37–45 dB-Hz, docs/sources.md#typical-cn0), plus a per-satellite offset and
 white noise; multipath sectors attenuate and add jitter.
 """
 

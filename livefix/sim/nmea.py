@@ -11,13 +11,13 @@ from collections.abc import Iterable, Sequence
 
 from livefix.checksum import checksum_hex
 
-# RINEX letter -> GSV talker and NMEA 4.10+ system id (REFERENCES.md "NMEA 0183").
+# RINEX letter -> GSV talker and NMEA 4.10+ system id (docs/sources.md#system-ids).
 TALKER = {"G": "GP", "R": "GL", "E": "GA", "C": "GB"}
 SYSTEM_ID = {"G": 1, "R": 2, "E": 3, "C": 4}
-# GSV signal id we emit per system: GPS L1 C/A, GLONASS G1 C/A, Galileo E1-BC (REFERENCES.md, memory),
+# GSV signal id we emit per system: GPS L1 C/A, GLONASS G1 C/A, Galileo E1-BC (docs/sources.md#signal-ids, from memory),
 # BeiDou B1I (from memory).
 SIGNAL_ID = {"G": "1", "R": "1", "E": "7", "C": "1"}
-# Fix-type name -> (GGA quality, RMC/VTG mode); quality codes per REFERENCES.md (3-8 from memory).
+# Fix-type name -> (GGA quality, RMC/VTG mode); quality codes per docs/sources.md#gga-quality (3-8 from memory).
 MODES = {"none": (0, "N"), "single": (1, "A"), "dgnss": (2, "D"), "rtk_float": (5, "F"), "rtk_fixed": (4, "R")}
 
 
@@ -57,7 +57,7 @@ def _f(v: float | None, nd: int) -> str:
 
 
 # Latitude/longitude with 6 decimal minutes (1.9 mm) and a 1-decimal separation keep an RTK GGA
-# within the 86 characters receivers are seen to reach (REFERENCES.md, NMEA sentence length).
+# within the 86 characters receivers are seen to reach (docs/sources.md#sentence-length).
 def gga(tk: str, d: _dt.datetime, fix: str, lat: float | None, lon: float | None, alt: float | None,
         sep: float, num_sv: int, hdop: float | None, age: float | None, station: int | None) -> bytes:
     q = MODES[fix][0]
@@ -111,6 +111,12 @@ def gst(tk: str, d: _dt.datetime, rms: float, s_lat: float, s_lon: float, s_alt:
 
 def zda(tk: str, d: _dt.datetime) -> bytes:
     return sentence(f"{tk}ZDA,{_time(d)},{d.day:02d},{d.month:02d},{d.year:04d},00,00")
+
+
+def txt(tk: str, texts: Sequence[str]) -> list[bytes]:
+    """TXT (NMEA 0183 4.10: total, number, text identifier 02 = notice, text), one per text."""
+    n = len(texts)
+    return [sentence(f"{tk}TXT,{n:02d},{i:02d},02,{t}") for i, t in enumerate(texts, 1)]
 
 
 def ack(kind: str) -> bytes:

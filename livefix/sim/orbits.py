@@ -1,7 +1,7 @@
 """Keplerian MEO shells for the simulated receiver: an original, invented constellation model.
 
 Four shells shaped like the global constellations (plane count, inclination, semi-major axis as
-published for the nominal designs; see shared/REFERENCES.md), with invented phasing, small invented
+published for the nominal designs; see docs/sources.md#orbits), with invented phasing, small invented
 eccentricities and no real almanac. Positions are earth-fixed (the node regresses at the earth's
 rotation rate), which is all the az/el and DOP geometry needs.
 """
@@ -31,7 +31,7 @@ class Shell:
     node0_deg: float  # invented node of the first plane at the scenario start
 
 
-# Semi-major axes: GPS SPS Performance Standard 2001 Table 3-1 (G); REFERENCES.md for the others
+# Semi-major axes: GPS SPS Performance Standard 2001 Table 3-1 (G); docs/sources.md#orbits for the others
 # (R and C "from memory", E from public material). Phasing, nodes and PRNs are invented.
 SHELLS: dict[str, Shell] = {
     "G": Shell("G", 6, 5, 55.0, 26_559_700.0, 60.0, 1, 17.0, 12.0),

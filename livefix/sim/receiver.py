@@ -112,6 +112,7 @@ class SimReceiver:
         self._fix_type_since = ("none", 0.0)
         self._prev_fix = "none"
         self._clock_lost_at: float | None = None  # cold restart time while UTC is unknown
+        self._announced = not scenario.announce
 
     # ----- commands -------------------------------------------------------------------------
     def command(self, data: bytes) -> None:
@@ -233,6 +234,9 @@ class SimReceiver:
             self._fix_type_since = (fix, t)
         tk = self._talker
         parts: list[bytes] = [nmea.ack(a) for a in self._acks]
+        if not self._announced:  # the start-up banner, once (scenario receiver.announce)
+            parts += nmea.txt(tk, sc.announce)
+            self._announced = True
         self._acks = []
         jump = self._faults(t, "jump")
         err = (0.0, 0.0, 0.0)

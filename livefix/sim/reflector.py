@@ -11,6 +11,14 @@ The reflected amplitude a falls with elevation: the surface's roughness (rms hei
 coherent part by exp(−2(kσ·sin e)²), k = 2π/λ (the Rayleigh-roughness factor, from memory), and the
 antenna's gain pattern weakens signals from further below the horizon, taken here as (1 − sin e)
 (invented, plausible). Reflection phase φ = 180° (a grazing reflection reverses the phase, from memory).
+
+Walls are a simplification. A vertical wall d metres from the antenna, facing azimuth α, reflects
+signals from satellites in front of it with an extra path 2d·cos e·cos(az − α) (image-antenna
+geometry, common practice), which grows with cos e rather than sin e; against sin e its frequency
+drifts along the arc (an apparent height d·tan e). The simulator does not model that drift: a wall
+is a Reflector limited to a narrow azimuth sector in front of it, with its own effective height and
+amplitude, so the analysis has one known truth per sector. Tests must not read such a sector's
+height as a wall distance.
 """
 
 from __future__ import annotations
@@ -22,7 +30,7 @@ import numpy as np
 
 C_LIGHT = 299_792_458.0  # m/s
 # Carrier of the signal the simulator writes in GSV, MHz: GPS L1 C/A, Galileo E1, BeiDou B1I (interface
-# specifications, shared/REFERENCES.md); GLONASS G1 at its channel-0 frequency 1602 MHz (its FDMA
+# specifications, docs/sources.md#carrier-frequencies); GLONASS G1 at its channel-0 frequency 1602 MHz (its FDMA
 # channel is not modelled).
 SIM_CARRIER_MHZ = {"G": 1575.42, "E": 1575.42, "C": 1561.098, "R": 1602.0}
 

@@ -82,6 +82,7 @@ class Scenario:
     path: str = ""
     dialect: tuple[str, ...] = ()  # receiver dialects (livefix.sim.dialects), in application order
     reflectors: tuple[Reflector, ...] = ()  # horizontal reflecting planes (livefix.sim.reflector)
+    announce: tuple[str, ...] = ()  # TXT texts sent once at start (invented model/firmware banner)
 
     @property
     def start_iso(self) -> str:
@@ -116,7 +117,22 @@ def list_scenarios() -> list[str]:
 _TOP = {"name", "description", "start_utc", "site", "receiver", "fix", "restart", "mask", "multipath", "faults",
         "dialect", "reflector"}
 _SITE = {"name", "lat", "lon", "h", "sep"}
-_RECEIVER = {"systems", "elevation_mask_deg", "cn0_5deg", "cn0_zenith", "cn0_noise_db", "track_min_cn0"}
+_RECEIVER = {"systems", "elevation_mask_deg", "cn0_5deg", "cn0_zenith", "cn0_noise_db", "track_min_cn0",
+             "announce"}
+# NMEA 0183 reserves these characters; a TXT text longer than 61 characters would make the sentence
+# "$GNTXT,01,01,02,...*hh<CR><LF>" exceed the standard's 82 characters
+_TXT_RESERVED, _TXT_MAX = set(",*$!\\^~"), 61
+
+
+def _announce(texts: Any) -> tuple[str, ...]:
+    out = tuple(str(t) for t in texts)
+    for t in out:
+        if len(t) > _TXT_MAX or not t.isascii() or not t.isprintable() or _TXT_RESERVED & set(t):
+            raise ValueError(f"receiver.announce {t!r}: printable ASCII without , * $ ! \\ ^ ~, "
+                             f"at most {_TXT_MAX} characters")
+    return out
+
+
 _FIX = {"ttff_s", "dgnss_after_s", "float_after_s", "fixed_after_s", "best"}
 _SECTOR = {"az_from", "az_to", "el_below", "atten_db", "jitter_db"}
 _REFLECTOR = {"height_m", "amplitude", "roughness_m", "az_from", "az_to", "el_below", "phase_deg"}
@@ -168,7 +184,7 @@ def _from_dict(d: dict[str, Any], label: str) -> Scenario:
             ttff_s=float(fix.get("ttff_s", 30.0)), dgnss_after_s=float(fix.get("dgnss_after_s", 5.0)),
             float_after_s=float(fix.get("float_after_s", 15.0)), fixed_after_s=float(fix.get("fixed_after_s", 40.0)),
             best_fix=best, restart_ttff_s=restart, masks=masks, multipath=mps, faults=faults, path=label,
-            dialect=dialect, reflectors=refl)
+            dialect=dialect, reflectors=refl, announce=_announce(rcv.get("announce", ())))
     except KeyError as exc:
         raise ValueError(f"{label}: missing key {exc.args[0]!r}") from exc
     except (TypeError, ValueError) as exc:

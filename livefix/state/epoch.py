@@ -6,7 +6,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 # GGA quality indicator -> our fix-type names (NMEA 0183; 0-2 verified, 3-8 from memory, see
-# shared/REFERENCES.md). These names are the keys of fix availability everywhere.
+# docs/sources.md#gga-quality). These names are the keys of fix availability everywhere.
 FIX_NAMES: dict[int, str] = {
     0: "none", 1: "single", 2: "dgnss", 3: "pps", 4: "rtk_fixed", 5: "rtk_float",
     6: "estimated", 7: "manual", 8: "simulator",
@@ -80,6 +80,9 @@ class Epoch:
     # False while the date of this epoch is not known (no valid receiver date, no host date): utc
     # and wall then count days from 1970-01-01 and are shown as a time of day (livefix.timefmt)
     date_known: bool = True
+    # DTM in this epoch (NMEA 0183 datum reference): the local datum code ("W84", "P90", "999" user
+    # defined, ...) and the reference datum; None when the epoch carried no DTM
+    datum: tuple[str, str] | None = None
 
     @property
     def fix(self) -> str:

@@ -20,7 +20,7 @@ from collections.abc import Mapping
 from types import MappingProxyType
 
 from livefix.state.epoch import TALKER_SYSTEM
-from livefix.state.prn import user_prn_cached
+from livefix.state.prn import user_prn
 
 RawSat = tuple[str, int, int | None, int | None, float | None]  # system, prn, elev, azim, cn0
 Part = tuple[tuple[RawSat, ...], tuple[int, ...]]  # satellites of one part, numbers no block fits
@@ -32,6 +32,7 @@ _BLOCK_FLAT = tuple(f"{a}_{i:02d}" for i in range(1, 5) for a in ("svid", "elv",
 # NMEA 0183 gives the number of GSV sentences one digit (1-9); receivers with large skies go past it,
 # so up to 99 parts are accepted (two digits, common practice); more is unreadable, never an allocation.
 MAX_PARTS = 99
+MEMO_MAX = 4096  # entries per part memo; a day's distinct parts are far fewer, a flood only clears it
 
 
 class _Partial:
@@ -59,10 +60,16 @@ class GsvAssembler:
         self.broken = 0  # incomplete sets (lost part, restart, numMsg change, stray parts) + unreadable parts
         self.unmapped = 0  # listed numbers outside every known block
         self.last_unknown: tuple[int, ...] = ()  # such numbers in the part just added
+        # Part contents repeat epoch after epoch: (system, 16 block values) -> Part. And the
+        # decoder's read-only field mapping of a repeated line (so the same talker too), by id ->
+        # (mapping, group key, numMsg, msgNum, numSV, its Part); holding the mapping keeps its id
+        # unique. Owned here, not by the module, so two state models share nothing; bounded.
+        self._part_by_value: dict[tuple, Part] = {}
+        self._part_by_id: dict[int, tuple] = {}
 
     def add(self, talker: str, f: Mapping) -> tuple[tuple[str, str], list[RawSat] | None, int]:
         """-> (group key, satellites of a set that ended now or None, incomplete sets counted now)."""
-        known = _PART_BY_VALUE.get(id(f))
+        known = self._part_by_id.get(id(f))
         if known is not None and known[0] is f:  # the decoder's shared value of a repeated line
             _, key, num, part, total, hit = known
         else:
@@ -78,7 +85,7 @@ class GsvAssembler:
             self.broken += 1
             return key, None, 1
         if hit is None:
-            hit = _part(talker, f, key, num, part, total)
+            hit = self._part(talker, f, key, num, part, total)
         sats = hit[0]
         if hit[1]:
             self.unmapped += len(hit[1])
@@ -119,6 +126,24 @@ class GsvAssembler:
             pending[p.key] = p
         return out
 
+    def _part(self, talker: str, f: Mapping, key: tuple[str, str], num: int, part: int, total: object) -> Part:
+        """Satellites of one part (+ numbers no block fits), memoised by value and by identity."""
+        system = TALKER_SYSTEM.get(talker)
+        vkey = (system, tuple(map(f.get, _BLOCK_FLAT)))  # everything the result depends on
+        by_value = self._part_by_value
+        hit = by_value.get(vkey)
+        if hit is None:
+            hit = _part_sats(system, vkey[1])
+            if len(by_value) >= MEMO_MAX:
+                by_value.clear()
+            by_value[vkey] = hit
+        if f.__class__ is MappingProxyType:  # read-only, so its results never change
+            by_id = self._part_by_id
+            if len(by_id) >= MEMO_MAX:
+                by_id.clear()
+            by_id[id(f)] = (f, key, num, part, total, hit)  # holding f keeps its id unique
+        return hit
+
     def _repeats_last(self, key: tuple[str, str], num: int, part: int, sats: tuple[RawSat, ...]) -> bool:
         last = self._last.get(key)
         return last is not None and len(last[0]) == num and last[0][part - 1] == sats
@@ -158,23 +183,6 @@ class GsvAssembler:
         return key, (got or None), 1
 
 
-def _part(talker: str, f: Mapping, key: tuple[str, str], num: int, part: int, total: object) -> Part:
-    """Satellites of one part (+ numbers no block fits), memoised by value and by identity."""
-    system = TALKER_SYSTEM.get(talker)
-    vkey = (system, tuple(map(f.get, _BLOCK_FLAT)))  # everything the result depends on
-    hit = _PART_CACHE.get(vkey)
-    if hit is None:
-        hit = _part_sats(system, vkey[1])
-        if len(_PART_CACHE) >= 4096:
-            _PART_CACHE.clear()
-        _PART_CACHE[vkey] = hit
-    if f.__class__ is MappingProxyType:  # read-only, so its results never change
-        if len(_PART_BY_VALUE) >= 4096:
-            _PART_BY_VALUE.clear()
-        _PART_BY_VALUE[id(f)] = (f, key, num, part, total, hit)  # holding f keeps its id unique
-    return hit
-
-
 def _part_sats(system: str | None, vals: tuple) -> Part:
     """Satellites of one GSV part from its 16 block values (svid, elv, az, cno x 4)."""
     out: list[RawSat] = []
@@ -183,7 +191,7 @@ def _part_sats(system: str | None, vals: tuple) -> Part:
         svid, e, a, c = vals[i : i + 4]
         if svid.__class__ is not int:
             continue
-        m = user_prn_cached(system, svid)
+        m = user_prn(system, svid)
         if m is None:
             unknown.append(svid)
             continue
@@ -191,9 +199,3 @@ def _part_sats(system: str | None, vals: tuple) -> Part:
                     c if c.__class__ is int or c.__class__ is float else None))  # dd.d from some receivers
     return tuple(out), tuple(unknown)
 
-
-# Part contents repeat epoch after epoch; (system, block values) -> Part.
-_PART_CACHE: dict[tuple, Part] = {}
-# id of a read-only field mapping (a repeated line, so the same talker too) -> (mapping, group key,
-# numMsg, msgNum, numSV, its Part).
-_PART_BY_VALUE: dict[int, tuple] = {}

@@ -16,6 +16,7 @@ from livefix.items import Link, LinkEvent, Marker
 from livefix.state.clock import UtcClock
 from livefix.state.epoch import Epoch, Event, SatObs
 from livefix.state.sky import GsvAssembler, Sky
+from livefix.state.texts import ReceiverTexts
 from livefix.state.used import UsedTracker, solution_gsa
 
 # Sentence types whose time field is the UTC time of a position fix: only these open and close
@@ -28,7 +29,7 @@ CLOCK_ONLY = frozenset({"ZDA", "GST"})
 # Position sources in order of preference.
 POSITION_FROM = ("GGA", "GNS", "RMC", "GLL")
 # RMC/GNS/GLL mode letter -> GGA quality (NMEA 0183: A, D, E, N verified; F, R, M, S, P from memory,
-# see shared/REFERENCES.md).
+# see docs/sources.md#mode-letters).
 MODE_QUALITY: dict[str, int] = {"A": 1, "D": 2, "P": 3, "R": 4, "F": 5, "E": 6, "M": 7, "S": 8, "N": 0}
 # GNS gives one mode letter per constellation: the best of them describes the solution.
 MODE_RANK: dict[str, int] = {m: i for i, m in enumerate("NSMEAPDFR")}
@@ -45,6 +46,14 @@ TXT_MAX = 120  # characters of receiver text kept in an event
 # A marker note starting with this says livefix itself restarted the receiver at that moment; it is
 # recorded like any marker, so a replay sees the restart at the same place in the stream.
 RESTART_NOTE = "receiver restart"
+
+
+def _datum(dtm: Any) -> tuple[str, str] | None:
+    """(local datum, reference datum) of a DTM sentence (NMEA 0183), None without one."""
+    if not dtm:
+        return None
+    local = str(dtm.get("datum") or "")
+    return (local + (f"/{dtm['subDatum']}" if dtm.get("subDatum") else ""), str(dtm.get("refDatum") or ""))
 
 
 def _num(v: Any) -> float | None:
@@ -92,6 +101,7 @@ class StateModel:
         self.epochs = 0
         self.late = 0  # timed sentences that arrived after their epoch had closed
         self.txt_suppressed = 0  # TXT sentences over the rate cap
+        self.texts = ReceiverTexts()  # distinct TXT texts: their first sights pass the cap
         self._txt_window, self._txt_in_window = float("-inf"), 0
         self._closed_tod: float | None = None
         self.rejected: dict[str, int] = {}
@@ -331,17 +341,20 @@ class StateModel:
             diff_age=_first((gga or {}).get("diffAge"), (gns or {}).get("diffAge")),
             sats=self._sky.obs(self._used), used_prns=self._used_sorted,
             sentences=tuple(op.sentences), unknown_ids=self._gsa.unknown,
-            date_known=self._clock.date_known)
+            date_known=self._clock.date_known, datum=_datum(bt.get("DTM")))
         self.last_epoch, self._closed_tod = ep, op.tod
         self.epochs += 1
         return ep
 
     def _on_txt(self, msg: Decoded, mono: float, wall: float) -> None:
         """TXT text is data from the wire: capped in length and to TXT_PER_S events a second
-        (the rest counted in `txt_suppressed`); renderers escape it."""
+        (the rest counted in `txt_suppressed`) but for first sights (livefix.state.texts)."""
         if mono - self._txt_window >= 1.0:
             self._txt_window, self._txt_in_window = mono, 0
         self._txt_in_window += 1
+        if (first := self.texts.add(msg.fields.get("text", ""))) is not None:  # data receiver_text, first
+            return self._emit(mono, wall, "note", f"receiver text: {first}",
+                              data={"talker": msg.talker, "receiver_text": first, "first": True})
         if self._txt_in_window > TXT_PER_S:
             self.txt_suppressed += 1
             return

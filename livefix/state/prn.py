@@ -10,11 +10,11 @@ caller counts it as an unknown ID and reports it.
 from __future__ import annotations
 
 # Combined numbering (GN/GP listing without system ID): (first, last, system, offset to user number).
-# 1-32, 33-64, 65-96: NMEA 0183 (shared/REFERENCES.md, from memory). 120-158: SBAS PRNs written as
+# 1-32, 33-64, 65-96: NMEA 0183 (docs/sources.md#satellite-numbers, from memory). 120-158: SBAS PRNs written as
 # they are (common practice). 193-200: QZSS PRNs (IS-QZSS assigns 193-202; 201-202 are read as
 # BeiDou below, where the BeiDou "+200" block puts its first two GEO satellites; from memory).
 # 201-263 and 401-463: BeiDou C01-C63 with +200 or +400; 301-336: Galileo E01-E36 (+300); receivers
-# use either BeiDou block (shared/REFERENCES.md, from memory).
+# use either BeiDou block (docs/sources.md#satellite-numbers, from memory).
 COMBINED_RANGES: tuple[tuple[int, int, str, int], ...] = (
     (1, 32, "G", 0), (33, 64, "S", 87), (65, 96, "R", -64), (120, 158, "S", 0),
     (193, 200, "J", -192), (201, 263, "C", -200), (301, 336, "E", -300), (401, 463, "C", -400),
@@ -51,18 +51,3 @@ def user_prn(system: str | None, n: int) -> tuple[str, int] | None:
             return system, n + off
     return None
 
-
-_CACHE: dict[tuple[str | None, int], tuple[str, int] | None] = {}
-
-
-def user_prn_cached(system: str | None, n: int) -> tuple[str, int] | None:
-    """user_prn through a bounded memo: GSV and GSA list the same few dozen numbers all day."""
-    k = (system, n)
-    try:
-        return _CACHE[k]
-    except KeyError:
-        pass
-    if len(_CACHE) >= 4096:
-        _CACHE.clear()
-    m = _CACHE[k] = user_prn(system, n)
-    return m

@@ -10,7 +10,7 @@ from livefix.state.epoch import TALKER_SYSTEM, SatObs
 from livefix.state.gsv import GsvAssembler, RawSat
 from livefix.state.prn import user_prn
 
-__all__ = ["GsvAssembler", "RawSat", "Sky", "SYSTEM_ORDER", "sats_token", "talker_system", "user_prn"]
+__all__ = ["GsvAssembler", "RawSat", "Sky", "SYSTEM_ORDER", "talker_system", "user_prn"]
 
 SYSTEM_ORDER = {s: i for i, s in enumerate("GRECJIS")}
 
@@ -79,10 +79,7 @@ class Sky:
         lay = self._layout
         if lay is None or lay[0] != sig or lay[1] != used:
             lay = self._layout = (sig, used, self._plan(used), list(self._groups.values()))
-            self._lean = out = tuple(_build(lay[2], None))
-            if len(_TOKENS) >= _TOKENS_MAX:
-                _TOKENS.clear()
-            _TOKENS[id(out)] = (out, lay)
+            self._lean = tuple(_build(lay[2], None))
         return self._lean
 
     def seen(self, used: frozenset[tuple[str, int]]) -> tuple[SatObs, ...]:
@@ -129,19 +126,6 @@ def _build(rows: list[tuple[tuple, int]], monos: tuple[float, ...] | None) -> li
         sm(o, monos[gi] if monos is not None else 0.0)
         append(o)
     return objs
-
-
-# Recent obs() tuples -> their layout: per-epoch statistics compare tokens to skip recomputing.
-_TOKENS: dict[int, tuple[tuple[SatObs, ...], object]] = {}
-_TOKENS_MAX = 64
-
-
-def sats_token(sats: tuple[SatObs, ...]) -> object | None:
-    """An object shared by every Epoch.sats tuple this process built from the same satellites
-    (same system, prn, signal, elev, azim, cn0 and used flag at every position; only
-    last_seen_mono may differ); None for tuples of unknown origin."""
-    e = _TOKENS.get(id(sats))
-    return e[1] if e is not None and e[0] is sats else None
 
 
 _new = object.__new__

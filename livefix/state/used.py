@@ -2,7 +2,7 @@
 
 Why a union and a placing step: before NMEA 4.10 a receiver that tracks several constellations sends
 one GSA per constellation in each epoch, all with one talker (GP or GN) and no system-ID field
-(shared/REFERENCES.md, common practice). The used set is the union of the epoch's lists, and each
+(docs/sources.md#gsa-per-constellation, common practice). The used set is the union of the epoch's lists, and each
 list must be placed in its constellation. With a system ID (NMEA 4.10+) or a constellation talker
 (GL, GA, GB, ...) the sentence says it. Without, the NMEA number blocks (livefix.state.prn) say it,
 except that some receivers write Galileo, BeiDou or QZSS in their own numbers (1-36, 1-63, 1-10)
@@ -19,7 +19,7 @@ from types import MappingProxyType
 from typing import Any
 
 from livefix.state.epoch import SYSTEM_ID, TALKER_SYSTEM
-from livefix.state.prn import NATIVE_MAX, user_prn_cached
+from livefix.state.prn import NATIVE_MAX, user_prn
 
 Pair = tuple[str, int]
 
@@ -76,7 +76,7 @@ def classify(sid: Any, talker: str, svids: tuple) -> GsaSentence:
             return GsaSentence((), nums, ())
     placed, unknown = [], []
     for n in nums:
-        m = user_prn_cached(system, n)
+        m = user_prn(system, n)
         if m is None:
             unknown.append(n)
         else:
@@ -86,7 +86,7 @@ def classify(sid: Any, talker: str, svids: tuple) -> GsaSentence:
 
 def place(nums: tuple[int, ...], in_view: frozenset[Pair]) -> tuple[tuple[Pair, ...], tuple[int, ...]]:
     """Place one GP/GN list without system ID: -> (used pairs, numbers no block fits)."""
-    read = [user_prn_cached(None, n) for n in nums]
+    read = [user_prn(None, n) for n in nums]
     pairs = tuple([m for m in read if m is not None])
     unknown = tuple([n for n, m in zip(nums, read, strict=True) if m is None])
     if not nums or (not unknown and all(m in in_view for m in pairs)):

@@ -26,12 +26,13 @@ from livefix.ui import palette as pal_mod
 from livefix.ui.dialogs import ConfirmScreen, HelpScreen, PromptScreen
 from livefix.ui.events import EventList
 from livefix.ui.fmt import dig
+from livefix.ui.reflect import obstruction_page
 from livefix.ui.sattable import SatTable
 from livefix.ui.skyplot import SkyPlot
 from livefix.ui.stability import Stability
 from livefix.ui.status import Mode, StatusStrip
 from livefix.ui.trends import Trends
-from livefix.ui.views import PageScreen, obstruction_text, signals_text
+from livefix.ui.views import PageScreen, signals_text
 
 Verdict = Callable[[dict[str, Any]], list[Any]]
 STALE_LINKS = frozenset({"stalled", "lost", "reconnecting"})
@@ -144,7 +145,7 @@ class MonitorApp(App[int]):
         # the legend fits the 80-column sky panel (about 26 cells of border)
         self.panels["sky-panel"].border_subtitle = (
             "#@Oo strong>weak - none" if self.ascii_only else "◉●◐○ strong→weak ◌ none")
-        self.install_screen(PageScreen(obstruction_text, "sky"), "sky")
+        self.install_screen(PageScreen(obstruction_page, "sky"), "sky")  # with reflections (ui/reflect.py)
         self.install_screen(PageScreen(signals_text, "signal"), "signal")
         self.tick()
         self.set_interval(self.refresh_s, self.tick)

@@ -14,7 +14,7 @@ from livefix.timefmt import UNDATED_BEFORE
 DASH = "—"
 
 # C/N0 grade boundaries, dB-Hz (common practice: under ~30 weak, 37-45 typical open sky, see
-# shared/REFERENCES.md). Grade 0 = in view but not tracked.
+# docs/sources.md#typical-cn0). Grade 0 = in view but not tracked.
 CN0_GRADES: tuple[tuple[float, int], ...] = ((45.0, 4), (37.0, 3), (30.0, 2), (0.0, 1))
 GRADE_WORDS: dict[int, str] = {0: "none", 1: "weak", 2: "fair", 3: "good", 4: "strong"}
 

@@ -6,10 +6,17 @@ from typing import Any
 
 from rich.text import Text
 
+from livefix.analysis import catalogue as cat
 from livefix.ui.fmt import DASH, dig, duration, num
 from livefix.ui.panel import TextPanel
 
 M = ".3f"
+# Labels and units of catalogue figures (livefix/analysis/catalogue.py), so the screen names a figure
+# as the reports and profiles do. A pair shares its prefix once: "CEP50/95".
+_C50, _C95 = cat.short("position.cep50_m"), cat.short("position.cep95_m")
+SCATTER_LABEL = f"{_C50}/{_C95.removeprefix(_C50.rstrip('0123456789'))}"
+SCATTER_UNIT = " " + cat.unit("position.cep95_m")
+DRIFT_LABEL = f"{cat.short('derived.drift_h_mm_per_h')} {cat.unit('derived.drift_h_mm_per_h')}"
 
 
 def _enu(d: Any, fmt: str = M, unit: str = "") -> str:
@@ -44,8 +51,9 @@ def scatter_text(a: dict[str, Any], short: bool = False) -> str:
     m, p = a.get("motion") or {}, a.get("position") or {}
     if m.get("state") == "moving":
         return "not measured (receiver moving)"
-    text = f"{num(p.get('cep50_m'), M)}/{num(p.get('cep95_m'), M)} m" if short else (
-        f"{num(p.get('cep50_m'), M)} / {num(p.get('cep95_m'), M)} m  2DRMS {num(p.get('drms2_m'), M)}")
+    text = f"{num(p.get('cep50_m'), M)}/{num(p.get('cep95_m'), M)}{SCATTER_UNIT}" if short else (
+        f"{num(p.get('cep50_m'), M)} / {num(p.get('cep95_m'), M)}{SCATTER_UNIT}"
+        f"  {cat.short('position.drms2_m')} {num(p.get('drms2_m'), M)}")
     if m.get("state") == "mixed" and isinstance(m.get("moving_share"), (int, float)):
         text += f"  static part ({m['moving_share'] * 100:.0f} % moved)"
     return text
@@ -67,12 +75,13 @@ def lines(a: dict[str, Any], pm: str = "±") -> list[tuple[str, str]]:
         ("reference", f"{num(ref.get('lat'), '.7f')} {num(ref.get('lon'), '.7f')} {num(ref.get('h'), '.2f')}"
                       + (f" {ref.get('source')}" if ref.get("source") else "")),
         ("offset m", _enu(p.get("offset_m"))),
-        ("CEP50/95", scatter_text(a)),
-        ("vert 95%", f"{num(p.get('v95_m'), M, ' m')}  converged "
+        (SCATTER_LABEL, scatter_text(a)),
+        (cat.short("position.v95_m"), f"{num(p.get('v95_m'), M, ' ' + cat.unit('position.v95_m'))}  converged "
                      + ("not yet" if conv is None else f"after {duration(conv)}")
                      + ("" if conv_v is None else f" (v {duration(conv_v)})")),
-        ("drift mm/h", drift_text(p, pm)),
-        ("TTFF", _ttff(fix) + (f" RTK {duration(rtk)}" if rtk is not None else "")
+        (DRIFT_LABEL, drift_text(p, pm)),
+        (cat.short("fix.ttff_s"), _ttff(fix) + (f" {cat.short('fix.ttff_rtk_fixed_s')} {duration(rtk)}"
+                                                if rtk is not None else "")
          + "  avail " + (f"{has * 100:.1f} %" if avail else DASH)
          + (f" lost {fix.get('fix_losses')}" if fix.get("fix_losses") is not None else "")),
         ("DOP rep/cmp", " ".join(f"{k[0].upper()} {num(dop_r.get(k), '.1f')}/{num(dop_c.get(k), '.1f')}"

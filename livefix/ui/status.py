@@ -8,11 +8,12 @@ from typing import Any
 
 from rich.text import Text
 
+from livefix.analysis import catalogue as cat
 from livefix.pipeline import Snapshot
 from livefix.report.escape import term_text
 from livefix.ui.fmt import DASH, clock, dig, num, utc_text
 from livefix.ui.panel import TextPanel
-from livefix.ui.stability import drift_text, scatter_text
+from livefix.ui.stability import DRIFT_LABEL, SCATTER_LABEL, drift_text, scatter_text
 
 # link state -> (word, role); the word is the state, the role only adds emphasis
 LINK_LOOK: dict[str, tuple[str, str]] = {
@@ -114,7 +115,7 @@ class StatusStrip(TextPanel):
             t.append(f" ({term_text(s.link_detail)})", st("dim"))
         rate = dig(s.analysis, "stream", "rate_hz")
         t.append("  ")
-        t.append(num(rate, ".1f", " Hz"), st("value"))
+        t.append(num(rate, ".1f", " " + cat.unit("stream.rate_hz")), st("value"))
         if rec:
             t.append(f"  → {term_text(rec)}", st("value"))
         err = getattr(s, "error", None)
@@ -127,9 +128,9 @@ class StatusStrip(TextPanel):
         t.append(self.verdict[0], st(self.verdict[1]))
         self._fix(t, s, st)
         p = dig(s.analysis, "position") or {}
-        t.append("\n CEP50/95 ", st("dim"))
+        t.append(f"\n {SCATTER_LABEL} ", st("dim"))
         t.append(scatter_text(s.analysis, short=True), st("value"))
-        t.append("  drift mm/h ", st("dim"))
+        t.append(f"  {DRIFT_LABEL} ", st("dim"))
         t.append(drift_text(p, "+-" if getattr(self.app, "ascii_only", False) else "±"), st("value"))
         return t
 

@@ -87,5 +87,5 @@ def test_rtk_fixed_scatter_matches_the_configured_noise() -> None:
     expected = UERE["rtk_fixed"][0] * a["dop"]["reported"]["hdop"]
     assert fixed["n"] > 2000
     assert fixed["drms_m"] == pytest.approx(expected, rel=0.3)
-    # the circular-normal factor CEP50 ~ 1.1774 sigma = 0.8326 drms (REFERENCES.md, Rayleigh median)
+    # the circular-normal factor CEP50 ~ 1.1774 sigma = 0.8326 drms (docs/sources.md#circular-normal-factors, Rayleigh median)
     assert fixed["cep50_m"] == pytest.approx(0.8326 * fixed["drms_m"], rel=0.15)

@@ -22,7 +22,7 @@ CORPUS = Path(__file__).resolve().parents[3] / "shared" / "realdata" / "corpus"
 
 
 def cs(body: str) -> str:
-    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (REFERENCES.md)."""
+    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (docs/sources.md#checksum)."""
     x = 0
     for b in body.encode():
         x ^= b

@@ -120,7 +120,9 @@ def test_report_says_inconclusive_and_shows_value_plus_minus() -> None:
     doc = build_report([run], profile=prof)
     assert doc["verdict"] == "inconclusive" and doc["receivers"][0]["verdict"] == "inconclusive"
     md = render_markdown(doc)
-    assert "INCONCLUSIVE" in md and "e 8 ± 20" in md and r"horizontal 11.3 \(95 % interval 0 .. 51\)" in md  # Markdown escapes brackets
+    # the record's drift row (livefix.report.facts): value ± half the 95 % interval, [-12, 28] -> 8 ± 20
+    assert "INCONCLUSIVE" in md and "8 ± 20, 8 ± 20, 1 ± 10 mm/h" in md
+    assert "11.3 mm/h (95 % interval 0 to 51 mm/h)" in md
 
 
 def test_corpus_rtk_log_with_1hz_heights_has_a_sane_vertical_drift() -> None:

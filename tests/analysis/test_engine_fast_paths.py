@@ -13,7 +13,7 @@ import numpy as np
 from livefix.analysis.config import AnalysisConfig
 from livefix.analysis.engine import Analyzer
 from livefix.analysis.fixes import FixStats
-from livefix.analysis.geo import Projector, ecef
+from livefix.analysis.geo import EcefMemo, Projector
 from livefix.analysis.integrity import StreamIntegrity
 from livefix.analysis.streaming import PairHistory, Ring
 from livefix.geodesy import LocalFrame, geodetic_to_ecef
@@ -76,7 +76,8 @@ def test_snapshots_taken_any_time_do_not_change_the_result() -> None:
 def test_projector_equals_local_frame_bit_for_bit() -> None:
     rng = np.random.default_rng(5)
     frame = LocalFrame(LAT, LON, H)
-    proj = Projector(frame)
+    ecef = EcefMemo()
+    proj = Projector(frame, ecef)
     for lat, lon, h in zip(LAT + rng.normal(0, 0.01, 500), LON + rng.normal(0, 0.01, 500),
                            H + rng.normal(0, 50, 500), strict=True):
         lat, lon, h = float(lat), float(lon), float(h)

@@ -15,7 +15,7 @@ def _line(body: str) -> bytes:
 
 
 def test_twenty_digit_quality_gives_no_numpy_warning() -> None:
-    # NMEA 0183 defines GGA quality 0-8 (shared/REFERENCES.md); anything else is unknown.
+    # NMEA 0183 defines GGA quality 0-8 (docs/sources.md#gga-quality); anything else is unknown.
     p = Pipeline()
     with warnings.catch_warnings():
         warnings.simplefilter("error")

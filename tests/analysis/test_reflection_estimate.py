@@ -4,7 +4,7 @@ Synthetic arcs: a satellite rising from 5° to 25°, one C/N0 sample per second,
 rises smoothly (28 + 20·sqrt(sin e) dB-Hz, neither polynomial in sin e nor linear in dB, so no
 detrend model is favoured) and interferes with a reflection of amplitude ratio a off a horizontal
 plane H below the antenna: C/N0 += 10·log10(1 + a² + 2a·cos(4πH·sin e/λ + φ)) (two-ray model;
-H = f·λ/2 from the GNSS-IR software paper, GPS Solutions 22:80 (2018), see shared/REFERENCES.md),
+H = f·λ/2 from the GNSS-IR software paper, GPS Solutions 22:80 (2018), see docs/sources.md#gnss-ir-method),
 then 1 dB-Hz white noise and rounding to whole dB-Hz as NMEA writes it.
 """
 
@@ -42,7 +42,7 @@ def arc(h: float | None, rng: np.random.Generator, a: float = 0.15, phase: float
 
 
 def test_wavelength_is_c_over_f() -> None:
-    # λ = c / 1575.42 MHz = 0.190294 m (shared/REFERENCES.md); BeiDou B1I c / 1561.098 MHz
+    # λ = c / 1575.42 MHz = 0.190294 m (docs/sources.md#carrier-frequencies); BeiDou B1I c / 1561.098 MHz
     assert wavelength("G", "1") == pytest.approx(LAMBDA, rel=1e-12)
     assert wavelength("G", "1") == pytest.approx(0.190294, abs=1e-6)
     assert wavelength("E", "7") == pytest.approx(LAMBDA, rel=1e-12)

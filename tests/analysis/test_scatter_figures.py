@@ -26,7 +26,7 @@ def test_circular_factors_match_rayleigh_and_published() -> None:
     rng = np.random.default_rng(11)
     e, n, u = rng.normal(0, 1, 40000), rng.normal(0, 1, 40000), rng.normal(0, 1, 40000)
     f = figures(e, n, u)
-    # scipy.stats.rayleigh quantiles; published circular-normal factors (REFERENCES.md):
+    # scipy.stats.rayleigh quantiles; published circular-normal factors (docs/sources.md#circular-normal-factors):
     # CEP50 = 1.1774 sigma, R95 = 2.4477 sigma, 2DRMS = 2.8284 sigma, V95 = 1.960 sigma
     assert abs(stats.rayleigh.ppf(0.5) - 1.1774) < 1e-4 and abs(stats.rayleigh.ppf(0.95) - 2.4477) < 1e-4
     assert abs(f["cep50_m"] - 1.1774) < 0.03

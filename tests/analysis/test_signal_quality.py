@@ -60,7 +60,7 @@ def test_weak_satellite_listed() -> None:
 
 
 def test_broadband_drop_is_interference() -> None:
-    # common practice (Calcagno et al., NAVITEC 2010 in shared/REFERENCES.md): interference lowers
+    # common practice (NAVITEC 2010, docs/sources.md#interference-indicator): interference lowers
     # C/N0 on all satellites at once, regardless of direction
     s, events = _run(lambda t, p: 10.0 if 120 <= t < 150 else 0.0)
     snap = s.snapshot()

@@ -53,7 +53,8 @@ def test_fix_qualifier_and_derived_share():
 
 
 def test_list_counts_and_missing_metric_fails():
-    r = one("[[threshold]]\nname='j'\nmetric='fix.jumps'\nop='=='\nlimit=0\n"
+    # a bare list is no catalogue name (issue 14 item 2); a selector path over it counts its entries
+    r = one("[[threshold]]\nname='j'\nmetric='fix.jumps[distance_m>=0]'\nop='=='\nlimit=0\n"
             "[[threshold]]\nname='m'\nmetric='dop.computed.hdop'\nop='<='\nlimit=2\n")
     assert r[0].measured == 1 and not r[0].passed
     assert r[1].measured is None and not r[1].passed and r[1].note == "not measured"
@@ -96,7 +97,7 @@ def test_restart_sentence_checksum_matches_pynmeagps():
     # reference: pynmeagps.calc_checksum (NMEA 0183 XOR between $ and *)
     sent = restart_sentence("$PLFX,RESET,COLD")
     assert sent == f"$PLFX,RESET,COLD*{calc_checksum('PLFX,RESET,COLD')}\r\n".encode()
-    # public example sentence (NMEA data reference page, see REFERENCES.md): checksum 47
+    # public example sentence (a public NMEA example page, docs/sources.md#example-sentences): checksum 47
     gga = "$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,"
     assert restart_sentence(gga) == (gga + "*47\r\n").encode()
     assert restart_sentence("$PLFX,RESET,HOT*00") == b"$PLFX,RESET,HOT*00\r\n"  # given checksum kept
@@ -111,14 +112,33 @@ def test_percentile_matches_numpy():
 
 def test_unknown_metric_and_unit_are_refused_with_the_valid_names() -> None:
     # issue 15 item 5: a profile naming an unknown metric or unit fails at load, naming it and
-    # listing valid names (the names come from the analysis snapshot itself, livefix/analysis/paths.py)
-    import pytest as _pytest
-
-    from livefix.check.profile import ProfileError, parse_profile
-
+    # listing valid names; issue 14 item 2: the names are the metric catalogue's (docs/metrics.md)
     head = '[[threshold]]\nname = "x"\nop = "<="\nlimit = 1\n'
-    with _pytest.raises(ProfileError, match=r"unknown metric 'position\.cep96_m'.*cep95_m"):
-        parse_profile(head + 'metric = "position.cep96_m"\n')
-    with _pytest.raises(ProfileError, match=r"unknown unit 'furlongs'.*mm/h"):
-        parse_profile(head + 'metric = "position.cep95_m"\nunit = "furlongs"\n')
+    refused = [
+        ('metric = "position.cep96_m"\n', r"unknown metric 'position\.cep96_m'.*cep95_m"),
+        ('metric = "position.cep95_m"\nunit = "furlongs"\n', r"unknown unit 'furlongs'.*mm/h"),
+        # a real snapshot key outside the catalogue; the message lists catalogue names
+        ('metric = "fix.interval_s"\n', r"unknown metric 'fix\.interval_s'.*position\.cep95_m.*sky\.clear"),
+        # a selector path must start at a published figure
+        ('metric = "signal.by_height[from>=30].mean"\n', r"unknown metric 'signal\.by_height\[from>=30\]"),
+        # the stated unit must be the catalogue's: CEP95 is in metres, not millimetres
+        ('metric = "position.cep95_m"\nunit = "mm"\n', r"unit 'mm' does not match 'position\.cep95_m'.*'m'"),
+    ]
+    for body, message in refused:
+        with pytest.raises(ProfileError, match=message):
+            parse_profile(head + body)
     parse_profile(head + 'metric = "position.cep95_m"\nunit = "m"\n')  # a known pair is accepted
+    # no unit stated: the catalogue's unit is used (TTFF in seconds)
+    assert parse_profile(head + 'metric = "fix.ttff_s"\n').thresholds[0].unit == "s"
+    # fix.availability names no figure until the fix qualifier picks one (fix.availability.rtk_fixed)
+    assert parse_profile(head + 'metric = "fix.availability"\nfix = "rtk_fixed"\n').thresholds[0].unit == "ratio"
+
+
+def test_results_carry_the_catalogue_label() -> None:
+    r = one("[[threshold]]\nname='a'\nmetric='position.cep95_m'\nop='<='\nlimit=3\n"
+            "[[threshold]]\nname='c'\nmetric='signal.by_elevation[from>=30].mean'\nreduce='min'\nop='>='\nlimit=35\n")
+    assert r[0].label == "CEP95" and r[0].to_json()["label"] == "CEP95" and r[0].unit == "m"
+    assert r[1].label == "signal.by_elevation[from>=30].mean"  # a selector path is its own label
+    # a fix-qualified share takes the label of the figure it picks
+    r = one("[[threshold]]\nname='b'\nmetric='fix.availability'\nfix='rtk_fixed'\nop='>='\nlimit=0.7\n")
+    assert r[0].label == "RTK fixed share (whole run)" and r[0].measured == 0.7  # ANALYSIS above: 0.7

@@ -116,7 +116,7 @@ def gga_heights(ref: Ref) -> list[tuple[float, float]]:
 
 
 # NMEA satellite-ID ranges for a GP/GN talker (NMEA 0183 before system IDs; "from memory",
-# see shared/REFERENCES.md): 1-32 GPS, 33-64 SBAS, 65-96 GLONASS, 193-202 QZSS, 301-336 Galileo,
+# see docs/sources.md#satellite-numbers): 1-32 GPS, 33-64 SBAS, 65-96 GLONASS, 193-202 QZSS, 301-336 Galileo,
 # 401-437 BeiDou.
 _RANGES = ((1, 32, "G"), (33, 64, "S"), (65, 96, "R"), (193, 202, "J"), (301, 336, "E"), (401, 437, "C"))
 _TALKER = {"GL": "R", "GA": "E", "GB": "C", "BD": "C", "GQ": "J", "QZ": "J", "GI": "I"}  # NMEA 0183 talkers

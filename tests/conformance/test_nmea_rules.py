@@ -2,7 +2,7 @@
 on, tested through the public pipeline with tiny invented fixtures, its source named beside it.
 
 Sources: NMEA 0183 versions 4.10/4.11 (system IDs, signal IDs, talkers, GGA quality, mode letters,
-checksum; the standard is paywalled, the facts used are in shared/REFERENCES.md with the ones not
+checksum; the standard is paywalled, the facts used are in docs/sources.md#nmea-0183 with the ones not
 verified against the document marked "from memory"); IS-GPS-200 for GPS time and the 10-bit week
 number; RTCM 10403 for the framing of RTCM 3 messages; "common practice" where there is no standard.
 Every fixture is invented (times, places and satellites made up); expected values are hand counts.
@@ -37,7 +37,7 @@ from nmea_fixture import (
 
 # ---- checksum ------------------------------------------------------------------------------------------
 @pytest.mark.parametrize("body, want", [
-    # public example sentences with their checksums (shared/REFERENCES.md)
+    # public example sentences with their checksums (docs/sources.md#example-sentences)
     ("GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,", "47"),
     ("GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W", "6A"),
     ("GPGSA,A,3,04,05,,09,12,,,24,,,,,2.5,1.3,2.1", "39"),
@@ -104,7 +104,7 @@ def test_rmc_only_epoch_has_no_height(tmp_path):
 
 # ---- talker IDs and system IDs -----------------------------------------------------------------------------
 @pytest.mark.parametrize("talker, letter", [
-    # NMEA 0183 talkers (shared/REFERENCES.md): GP GPS, GL GLONASS, GA Galileo, GB BeiDou (BD older),
+    # NMEA 0183 talkers (docs/sources.md#talker-ids): GP GPS, GL GLONASS, GA Galileo, GB BeiDou (BD older),
     # GQ QZSS, GI NavIC; letters are the RINEX constellation letters
     ("GP", "G"), ("GL", "R"), ("GA", "E"), ("GB", "C"), ("BD", "C"), ("GQ", "J"), ("GI", "I"),
 ])
@@ -118,7 +118,7 @@ def test_gsv_talker_gives_constellation(tmp_path, talker, letter):
 
 
 @pytest.mark.parametrize("sysid, num, want", [
-    # NMEA 0183 4.10/4.11 GSA system ID (shared/REFERENCES.md): 1 GPS, 2 GLONASS, 3 Galileo,
+    # NMEA 0183 4.10/4.11 GSA system ID (docs/sources.md#system-ids): 1 GPS, 2 GLONASS, 3 Galileo,
     # 4 BeiDou, 5 QZSS, 6 NavIC. Numbers within: GLONASS keeps 65-96 (slot + 64), the others their
     # own numbers (from memory).
     ("1", "05", ("G", 5)), ("2", "65", ("R", 1)), ("3", "05", ("E", 5)),
@@ -159,7 +159,7 @@ def test_several_gsa_without_system_id_are_one_union(tmp_path):
 
 def test_unknown_id_is_reported_not_dropped(tmp_path):
     # 99 fits none of the NMEA blocks above: an unknown constellation, reported, never guessed
-    # (shared/REFERENCES.md: "treat unknown ranges as unknown constellation")
+    # (docs/sources.md#satellite-numbers: a number no block fits is an unknown constellation)
     def burst(t):
         return [gga(t, talker="GN"), gsa(["05", "99"])]
     run = run_plain(tmp_path, bursts(3, burst))
@@ -200,7 +200,7 @@ def test_gsv_set_spanning_talkers(tmp_path):
 # ---- fix quality and mode letters ------------------------------------------------------------------------------
 @pytest.mark.parametrize("q, want", [
     # NMEA 0183 GGA quality: 0 invalid, 1 GPS fix, 2 DGPS (verified); 4 RTK fixed, 5 RTK float,
-    # 6 dead reckoning (from memory; shared/REFERENCES.md)
+    # 6 dead reckoning (from memory; docs/sources.md#gga-quality)
     (1, "single"), (2, "dgnss"), (4, "rtk_fixed"), (5, "rtk_float"), (6, "estimated"),
 ])
 def test_gga_quality(tmp_path, q, want):
@@ -217,7 +217,7 @@ def test_gga_quality_zero_is_no_fix(tmp_path):
 
 @pytest.mark.parametrize("mode, status, want", [
     # NMEA 0183 RMC mode: A autonomous, D differential, E estimated, N not valid (with status V);
-    # R RTK fixed, F RTK float (from memory; shared/REFERENCES.md)
+    # R RTK fixed, F RTK float (from memory; docs/sources.md#mode-letters)
     ("A", "A", "single"), ("D", "A", "dgnss"), ("R", "A", "rtk_fixed"), ("F", "A", "rtk_float"),
     ("E", "A", "estimated"),
 ])
@@ -243,7 +243,7 @@ def test_gns_mode_string(tmp_path):
 def test_week_rollover_arithmetic():
     # IS-GPS-200: 10-bit week number, so the week rolls over every 1024 weeks = 7168 days; the
     # rollovers of 1999-08-22 and 2019-04-07 (GPS weeks start on Sunday 00:00) are 7168 days apart,
-    # and week 0 started 1980-01-06 (shared/REFERENCES.md)
+    # and week 0 started 1980-01-06 (docs/sources.md#gps-time)
     from livefix import dates
 
     assert dates.ROLLOVER_DAYS == 1024 * 7 == 7168

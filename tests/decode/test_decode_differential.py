@@ -19,7 +19,7 @@ from pynmeagps import NMEAReader
 from livefix.decode import Decoded, Rejected
 from livefix.decode.decoder import Decoder
 
-# Talkers from the NMEA 0183 talker list (REFERENCES.md) plus two non-GNSS ones pynmeagps accepts.
+# Talkers from the NMEA 0183 talker list (docs/sources.md#talker-ids) plus two non-GNSS ones pynmeagps accepts.
 TALKERS = ["GP", "GL", "GA", "GB", "BD", "GQ", "GI", "GN", "II", "IN"]
 
 ODD_NUM = ["", "abc", "1.2.3", "1e5", " 5", "5 ", "+3", "-0", "-7", "nan", "inf", "-inf", "1_0", "0x1F",
@@ -109,7 +109,7 @@ def gen_simple(r: random.Random, msg_id: str) -> bytes:
 def gen_gsa(r: random.Random) -> bytes:
     ids = [f"{r.randint(1, 200):02d}" if r.random() < 0.6 else "" for _ in range(12)]
     vals = [r.choice("AM"), str(r.randint(1, 3)), *ids, _dec(r), _dec(r), _dec(r)]
-    if r.random() < 0.7:  # NMEA 4.10+ system ID (REFERENCES.md: 1 GPS .. 6 NavIC)
+    if r.random() < 0.7:  # NMEA 4.10+ system ID (docs/sources.md#system-ids: 1 GPS .. 6 NavIC)
         vals.append(str(r.randint(1, 6)))
     kinds = ["ch", "int"] + ["int"] * 12 + ["dec"] * 3 + ["ch"]
     return _sentence(r, r.choice(TALKERS), "GSA", _mutate(r, kinds, vals))

@@ -14,7 +14,7 @@ from livefix.decode import BAD_CHECKSUM, MALFORMED, NO_CHECKSUM, UNKNOWN, Decode
 from livefix.decode.decoder import Decoder
 
 # Public example sentences from the widely used public NMEA data reference page (which states it
-# is not taken from the standard); checksums as listed in /work/shared/REFERENCES.md.
+# is not taken from the standard); checksums as listed in docs/sources.md#example-sentences.
 EXAMPLES = [
     b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47",
     b"$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A",
@@ -145,7 +145,7 @@ def test_exclamation_sentences_are_checked_and_unknown() -> None:
 
 @pytest.mark.parametrize("talker", ["GP", "GL", "GA", "GB", "BD", "GQ", "GI", "GN"])
 def test_every_gnss_talker(talker: str) -> None:
-    # Talker list: NMEA 0183 (REFERENCES.md); fields vs pynmeagps 1.1.8.
+    # Talker list: NMEA 0183 (docs/sources.md#talker-ids); fields vs pynmeagps 1.1.8.
     line = _cs(f"{talker}GSV,1,1,02,01,40,083,46,02,17,308,,1")
     got = Decoder().decode(line)
     assert isinstance(got, Decoded) and got.talker == talker and got.fields == _public(line)

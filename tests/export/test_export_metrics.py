@@ -58,3 +58,24 @@ def test_parse_listen_defaults_to_loopback():
     assert parse_listen(":9464") == ("127.0.0.1", 9464)
     with pytest.raises(ValueError):
         parse_listen("127.0.0.1:http")
+
+
+def test_exported_names_come_from_the_catalogue(snap):
+    # issue 14 item 2: the exporter's families are the catalogue entries with a Prometheus name;
+    # the names dashboards already use stay (the list the exporter had before the catalogue)
+    from livefix.analysis import catalogue
+    from livefix.export.metrics import COUNTERS, GAUGES
+
+    assert {n for n, _, _ in GAUGES} >= {
+        "livefix_fix_availability_ratio", "livefix_ttff_seconds", "livefix_ttff_rtk_fixed_seconds",
+        "livefix_longest_outage_seconds", "livefix_cep50_meters", "livefix_cep95_meters",
+        "livefix_vertical95_meters", "livefix_cn0_mean_dbhz", "livefix_sky_clear_above_degrees",
+        "livefix_hdop_computed", "livefix_epoch_rate_hertz"}
+    assert {n for n, _, _ in COUNTERS} >= {
+        "livefix_sentences", "livefix_checksum_errors", "livefix_malformed_sentences", "livefix_epochs",
+        "livefix_jumps", "livefix_outages", "livefix_stalls"}
+    for name, helptext, path in GAUGES + COUNTERS:
+        m = catalogue.metric(path)
+        assert (m.prom, m.description) == (name, helptext)
+        assert m.kind == ("counter" if (name, helptext, path) in COUNTERS else "gauge")
+    assert snap.analysis["internal_errors"] == 0

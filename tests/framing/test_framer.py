@@ -10,7 +10,7 @@ from livefix.decode import Decoded
 from livefix.decode.decoder import Decoder
 from livefix.framing import MAX_LEN, Framer
 
-# Public example sentences (D. DePriest's NMEA data reference page, see shared/REFERENCES.md).
+# Public example sentences (docs/sources.md#example-sentences).
 GGA = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47"
 RMC = b"$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A"
 GSA = b"$GPGSA,A,3,04,05,,09,12,,,24,,,,,2.5,1.3,2.1*39"
@@ -44,7 +44,7 @@ def bytewise(data: bytes, max_len: int = MAX_LEN) -> tuple[list[bytes], tuple]:
 
 
 def test_every_terminator_style() -> None:
-    # CR LF is the NMEA 0183 terminator (REFERENCES.md); bare CR, bare LF and LF CR are common practice
+    # CR LF is the NMEA 0183 terminator (docs/sources.md#line-ending); bare CR, bare LF and LF CR are common practice
     for term in (b"\r\n", b"\n", b"\r", b"\n\r"):
         data = term.join(PUBLIC) + term
         out, counters = whole(data)
@@ -71,7 +71,7 @@ def test_dollar_mid_line_returns_the_broken_part() -> None:
 
 
 def test_overlong_line_dropped_and_counted() -> None:
-    # nominal 82 chars, real receivers send longer lines (REFERENCES.md): 86 must pass, 600 must not
+    # nominal 82 chars, real receivers send longer lines (docs/sources.md#sentence-length): 86 must pass, 600 must not
     long86 = b"$GPGGA," + b"1" * 79
     huge = b"$GPXXX," + b"9" * 600
     data = long86 + b"\r\n" + huge + b"\r\n" + GGA + b"\r\n" + huge + GSA + b"\r\n"

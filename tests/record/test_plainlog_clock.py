@@ -1,7 +1,7 @@
 """Plain-log clocks (issue 13 items 5, 6, 7, 8): checksums, time faults, untimed bursts, holes, dates.
 
 Fixtures are hand-written NMEA built by `nmea()` (checksum: XOR of the bytes between '$' and '*',
-NMEA 0183, shared/REFERENCES.md); every expected figure is hand arithmetic on the fixture.
+NMEA 0183, docs/sources.md#checksum); every expected figure is hand arithmetic on the fixture.
 """
 
 from __future__ import annotations

@@ -20,7 +20,7 @@ from livefix.sources.base import Chunk, Marker
 def nmea(body: str) -> bytes:
     cs = 0
     for ch in body.encode():
-        cs ^= ch  # NMEA 0183 checksum: XOR between $ and * (shared/REFERENCES.md)
+        cs ^= ch  # NMEA 0183 checksum: XOR between $ and * (docs/sources.md#checksum)
     return f"${body}*{cs:02X}\r\n".encode()
 
 

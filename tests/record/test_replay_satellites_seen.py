@@ -10,7 +10,7 @@ from livefix.sources.file import FileSource
 
 
 def cs(body: str) -> str:
-    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (REFERENCES.md)."""
+    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (docs/sources.md#checksum)."""
     x = 0
     for b in body.encode():
         x ^= b

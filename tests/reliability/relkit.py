@@ -19,7 +19,7 @@ ROOT = Path(__file__).resolve().parents[2]
 PY = sys.executable
 ENV = {**os.environ, "PYTHONPATH": str(ROOT)}
 
-# Public example sentences (shared/REFERENCES.md: the public NMEA data reference page).
+# Public example sentences (docs/sources.md#example-sentences).
 GGA = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47"
 RMC = b"$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A"
 GSV = b"$GPGSV,2,1,08,01,40,083,46,02,17,308,41,12,07,344,39,14,22,228,45*75"

@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import ast
 import asyncio
+import re
 import socket
 import threading
 import xml.etree.ElementTree as ET
@@ -162,7 +163,8 @@ def test_report_files_show_stream_and_note_text_inert(tmp_path: Path) -> None:
     tags.feed(docs["report.html"])  # the standard library's HTML parser (reference)
     assert "script" not in tags.tags
     assert "&lt;script&gt;" in docs["report.html"]  # shown, as text
-    assert "<script" not in docs["report.md"] and "&lt;script&gt;" in docs["report.md"]
+    # Markdown: backslash escapes, not entities (issue 16; CommonMark 0.31 section 2.4)
+    assert not re.search(r"(?<!\\)<script", docs["report.md"]) and "\\<script\\>" in docs["report.md"]
     ET.fromstring(docs["junit.xml"])  # well-formed XML (stdlib parser)
     assert "<script" not in docs["junit.xml"]
     out = run_cli("replay", "--headless", str(rec))

@@ -1,10 +1,13 @@
 """Escaping helpers: stream text must reach HTML, Markdown, XML and the terminal inert."""
 
+import html
 import html.parser
+import re
 import xml.etree.ElementTree as ET
 
-from hypothesis import given
+from hypothesis import given, settings
 from hypothesis import strategies as st
+from markdown_it import MarkdownIt
 
 from livefix.report.escape import html_text, md_text, term_text, xml_text
 
@@ -54,8 +57,22 @@ def test_terminal_text_never_passes_escape(s):
 
 def test_markdown_text_neutralises_markup():
     out = md_text("<img src=x onerror=y> *bold* [link](http://x) | cell")
-    assert "<" not in out and "&lt;img" in out
+    # backslash escapes, never HTML entities (issue 16; CommonMark 0.31 section 2.4)
+    assert "&lt;" not in out and r"\<img" in out
     assert r"\*bold\*" in out and r"\[link\]" in out and r"\|" in out
+
+
+_COMMONMARK = MarkdownIt("commonmark")  # markdown-it-py: a CommonMark reference renderer (comes with rich)
+_MD_CHARS = st.sampled_from(list(" -+=.)#*_`[]()<>&!|~\\:/ax1"))
+
+
+@settings(max_examples=500)
+@given(st.text(alphabet=_MD_CHARS, max_size=12))
+def test_markdown_text_renders_as_the_same_plain_text(s):
+    # A CommonMark renderer makes no element of it but the paragraph, and shows the text as given
+    out = _COMMONMARK.render(md_text(s))
+    assert set(re.findall(r"</?([a-z0-9]+)", out)) <= {"p"}
+    assert html.unescape(re.sub(r"</?p>", "", out).strip()) == s.strip()
 
 
 def test_bytes_are_kept_visible():

@@ -44,3 +44,16 @@ def test_section_escapes_text_and_is_empty_without_data() -> None:
     assert reflection_section(None) == []
     lines = reflection_section({"advice": "<b>x</b> *y*", "arcs": 0, "sectors": [], "fresnel": []})
     assert "<b>" not in "\n".join(lines)
+
+
+def test_section_says_none_found_with_the_detection_floor() -> None:
+    # no accepted arc among enough evaluated ones: multipath 0 and the floor 20·log10(1.025/0.975)
+    # = 0.43 dB for the default min_amplitude 0.025 (hand arithmetic)
+    from livefix.analysis.reflection import ReflectionConfig, mp_db
+
+    assert round(mp_db(ReflectionConfig().min_amplitude), 2) == 0.43
+    md = "\n".join(reflection_section({"status": "none found", "advice": "no reflecting surface found", "mp_db": 0.0,
+                                       "mp_floor_db": 0.43, "arcs_evaluated": 7, "arcs": 0, "sectors": [],
+                                       "fresnel": []}))
+    assert "no arc of 7 showed an oscillation above the detection floor of 0.43 dB" in md
+    assert "Reflector height" not in md

@@ -43,7 +43,7 @@ def _valid(line: bytes) -> bool:
 
 
 def _xor(body: bytes) -> int:
-    """NMEA 0183 checksum, from the standard's definition (REFERENCES.md)."""
+    """NMEA 0183 checksum, from the standard's definition (docs/sources.md#checksum)."""
     c = 0
     for b in body:
         c ^= b
@@ -213,7 +213,7 @@ def test_gsa_no_sysid_uses_one_talker_and_the_id_ranges(seed: int, talker: str, 
     new = [ln[1:ln.rindex(b"*")].decode().split(",") for ln in _lines(old) if ln[3:6] == b"GSA"]
     ref = [ln[1:ln.rindex(b"*")].decode().split(",") for ln in _lines(clean) if ln[3:6] == b"GSA"]
     assert {f[0] for f in new} == {f"{talker}GSA"} and all(len(f) == 18 for f in new)  # 4.11 has 19 fields
-    # pre-4.10 numbering (REFERENCES.md, memory): GPS 1-32, GLONASS 65-96, Galileo 301-336,
+    # pre-4.10 numbering (docs/sources.md#satellite-numbers, from memory): GPS 1-32, GLONASS 65-96, Galileo 301-336,
     # BeiDou 201-263 or 401-463
     ranges = {"1": (1, 32, 0), "2": (65, 96, 0), "3": (301, 336, 300), "4": beidou}
     for f_old, f_ref in zip(new, ref, strict=True):
@@ -252,7 +252,7 @@ def test_rmc_only_epochs_lack_gga_but_keep_rmc() -> None:
 
 @pytest.mark.parametrize(("seed", "rmc", "zda"), [(1, b"060180", b"06,01,1980"), (2, b"010100", b"01,01,2000")])
 def test_default_date_until_the_first_fix(seed: int, rmc: bytes, zda: bytes) -> None:
-    # 1980-01-06 is the GPS time origin, 2000-01-01 a common default (REFERENCES.md)
+    # 1980-01-06 is the GPS time origin, 2000-01-01 a common default (docs/sources.md#default-dates)
     for (t, _fix, clean), (_t, _f, dd) in zip(_epochs(None, seed=seed), _epochs("default-date", seed=seed),
                                              strict=True):
         b = _by_type(dd)
@@ -330,7 +330,7 @@ def test_gns_only_carries_the_gga_position() -> None:
         r = NMEAReader.parse(c["GGA"][0] + b"\r\n", validate=VALCKSUM)
         assert (g.time, g.lat, g.lon, g.alt, g.sep, g.numSV) == (r.time, r.lat, r.lon, r.alt, r.sep, r.numSV)
         # GNS mode: one letter per system, GPS GLONASS Galileo BeiDou (NMEA 4.10+); N no fix,
-        # A autonomous, D differential, F RTK float, R RTK fixed (REFERENCES.md; F and R from memory)
+        # A autonomous, D differential, F RTK float, R RTK fixed (docs/sources.md#mode-letters; F and R from memory)
         letter = {"none": "N", "single": "A", "dgnss": "D", "rtk_float": "F", "rtk_fixed": "R"}[fix]
         assert g.posMode == letter * 4
 

@@ -10,7 +10,7 @@ from pynmeagps import NMEAParseError, NMEAReader
 
 from livefix.sim import Scenario, SimReceiver, list_scenarios, nmea
 
-# Public example sentences from the NMEA data reference page listed in shared/REFERENCES.md
+# Public example sentences from a public NMEA example page (docs/sources.md#example-sentences)
 EXAMPLES = [
     "$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47",
     "$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A",
@@ -56,7 +56,7 @@ def test_every_sentence_parses_in_pynmeagps(name, rate):
             fmt = FORMATS.get(msg.msgID)
             if fmt is not None:
                 assert fmt.match(line), line
-            assert len(line) <= 86  # NMEA 0183 nominal 82 chars; receivers reach 86 (REFERENCES.md)
+            assert len(line) <= 86  # NMEA 0183 nominal 82 chars; receivers reach 86 (docs/sources.md#sentence-length)
     assert {"GGA", "RMC", "GSA", "GSV", "GST", "VTG", "ZDA"} <= seen
     assert count > 40 * rate * 5
 
@@ -93,7 +93,7 @@ def test_gsv_lists_signal_id_and_empty_cn0_for_untracked():
             if b"GSV" not in line[:7]:
                 continue
             m = NMEAReader.parse(line)
-            assert m.signalID in ("1", "7")  # GPS/GLONASS/BeiDou 1, Galileo E1 7 (REFERENCES.md, memory)
+            assert m.signalID in ("1", "7")  # GPS/GLONASS/BeiDou 1, Galileo E1 7 (docs/sources.md#signal-ids, from memory)
             for i in range(1, 5):
                 if hasattr(m, f"svid_{i:02d}"):
                     empty += getattr(m, f"cno_{i:02d}") == ""

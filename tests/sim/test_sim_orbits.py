@@ -24,13 +24,13 @@ def test_gps_like_period_is_half_a_sidereal_day():
 
 
 def test_other_shell_periods():
-    # REFERENCES.md: Galileo period about 14 h (ESA public material); GLONASS about 11 h 15 min (memory)
+    # docs/sources.md#orbits: Galileo period about 14 h (ESA public material); GLONASS about 11 h 15 min (memory)
     assert period_s(SHELLS["E"].a_m) / 3600 == pytest.approx(14.0, abs=0.15)
     assert period_s(SHELLS["R"].a_m) / 60 == pytest.approx(11 * 60 + 15, abs=3)
 
 
 def test_shell_layout_matches_published_design():
-    # GPS SPS PS 2001 Table 3-1: 6 planes 60 deg apart at 55 deg; REFERENCES.md for R/E/C planes
+    # GPS SPS PS 2001 Table 3-1: 6 planes 60 deg apart at 55 deg; docs/sources.md#orbits for R/E/C planes
     assert (SHELLS["G"].planes, SHELLS["G"].node_spacing_deg, SHELLS["G"].incl_deg) == (6, 60.0, 55.0)
     assert (SHELLS["R"].planes, SHELLS["R"].node_spacing_deg, SHELLS["R"].incl_deg) == (3, 120.0, 64.8)
     assert (SHELLS["E"].planes, SHELLS["E"].incl_deg) == (3, 56.0)

@@ -50,7 +50,7 @@ def test_obstruction_mask_only_untracks_inside_the_sector():
 
 
 def test_cn0_model_and_multipath_attenuation():
-    # model end points: 32 dB-Hz at 5 deg, 48 at zenith; REFERENCES.md "Signals": typical 37-45 dB-Hz
+    # model end points: 32 dB-Hz at 5 deg, 48 at zenith; docs/sources.md#typical-cn0: typical 37-45 dB-Hz
     assert cn0_model(np.array([5.0, 90.0]), 32, 48) == pytest.approx([32.0, 48.0])
     mid = float(cn0_model(np.array([35.0]), 32, 48)[0])
     assert 37 <= mid <= 45
@@ -80,7 +80,7 @@ def test_ttff_and_rtk_timeline_at_scripted_times():
     assert first["dgnss"] == pytest.approx(sc.ttff_s + sc.dgnss_after_s)
     assert first["rtk_float"] == pytest.approx(sc.ttff_s + sc.float_after_s)
     assert first["rtk_fixed"] == pytest.approx(sc.ttff_s + sc.fixed_after_s)
-    # GGA quality codes: 4 RTK fixed, 5 RTK float (REFERENCES.md, from memory beyond 0-2)
+    # GGA quality codes: 4 RTK fixed, 5 RTK float (docs/sources.md#gga-quality, from memory beyond 0-2)
     assert nmea.MODES["rtk_fixed"][0] == 4 and nmea.MODES["rtk_float"][0] == 5
 
 

@@ -2,7 +2,7 @@
 
 Truth comes from the scenario file (read here directly) and from the two-ray closed form: a plane H
 below the antenna changes the received power by 1 + a² + 2a·cos(4πH·sin e/λ + φ) (the GNSS-IR
-software paper, GPS Solutions 22:80 (2018); shared/REFERENCES.md).
+software paper, GPS Solutions 22:80 (2018); docs/sources.md#two-ray-model).
 """
 
 from __future__ import annotations
@@ -72,20 +72,23 @@ def _bad_toml() -> Path:
     return Path(f.name)
 
 
+def simulated_reflection(scenario: str, hours: float) -> dict:
+    """The `reflection` snapshot of a simulated session at 1 Hz with GPS, Galileo and BeiDou."""
+    sc = dataclasses.replace(Scenario.load(scenario), systems=("G", "E", "C"))
+    p = Pipeline()
+    for t, data in SimReceiver(sc, rate_hz=1, seed=1).epochs(hours * 3600.0):
+        p.feed(Chunk(t, sc.start_utc + t, data))
+    p.finish()
+    assert p.analyzer.internal_errors == 0
+    return p.analyzer.snapshot(p.counters())["reflection"]
+
+
 def test_simulated_rooftop_session_reports_the_roof_height_and_sectors() -> None:
     # 2 h at 1 Hz from the generator (simulated clocks, not real time), GPS, Galileo and BeiDou
     # (GLONASS carries no known wavelength in NMEA and is not analysed). A 6 h run of the whole
     # rooftop scenario is reported in docs; this one keeps CI short.
     truth = tomllib.loads((SCENARIOS / "rooftop.toml").read_text())["reflector"][0]
-    sc = dataclasses.replace(Scenario.load("rooftop"), systems=("G", "E", "C"))
-    rx = SimReceiver(sc, rate_hz=1, seed=1)
-    p = Pipeline()
-    for t, data in rx.epochs(2 * 3600.0):
-        p.feed(Chunk(t, sc.start_utc + t, data))
-    p.finish()
-    a = p.analyzer
-    r = a.snapshot(p.counters())["reflection"]
-    assert a.internal_errors == 0
+    r = simulated_reflection("rooftop", 2.0)
     assert r["arcs"] >= 6
     assert r["height_m"] == pytest.approx(truth["height_m"], abs=0.05)  # the scenario's roof plane
     lo, hi = truth["az_from"], truth["az_to"]

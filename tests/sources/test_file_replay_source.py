@@ -18,7 +18,7 @@ def nmea(body: str) -> bytes:
     cs = 0
     for ch in body.encode():
         cs ^= ch
-    return f"${body}*{cs:02X}\r\n".encode()  # NMEA 0183 checksum: XOR between $ and * (REFERENCES.md)
+    return f"${body}*{cs:02X}\r\n".encode()  # NMEA 0183 checksum: XOR between $ and * (docs/sources.md#checksum)
 
 
 def gga(t: str) -> bytes:

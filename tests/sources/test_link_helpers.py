@@ -10,7 +10,7 @@ from pynmeagps import NMEAReader
 from livefix.record import fmt
 from livefix.sources.link import Backoff, NmeaCounter, StallWatch, nmea_ok
 
-# Public example sentences (shared/REFERENCES.md, the public NMEA data reference page)
+# Public example sentences (docs/sources.md#example-sentences)
 EXAMPLES = [
     b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47",
     b"$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A",

@@ -16,8 +16,8 @@ from livefix.sources import SourceError, open_source
 from livefix.sources.base import Chunk, Link, LinkEvent
 from livefix.sources.serial_port import SerialSource
 
-# Public example sentences with correct checksums (shared/REFERENCES.md: the public NMEA data
-# reference page; checksums recomputed there).
+# Public example sentences with correct checksums (a public NMEA example page,
+# docs/sources.md#example-sentences; checksums recomputed there).
 GGA = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47\r\n"
 RMC = b"$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A\r\n"
 BAD = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*00\r\n"

@@ -14,7 +14,7 @@ from livefix.sources import SourceError, open_source
 from livefix.sources.base import Chunk, Link, LinkEvent
 from livefix.sources.tcp import TcpSource, parse_tcp_spec
 
-# Public example sentence (shared/REFERENCES.md, the public NMEA data reference page).
+# Public example sentence (docs/sources.md#example-sentences).
 GGA = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47\r\n"
 
 

@@ -42,7 +42,7 @@ def test_default_and_rolled_over_dates_are_not_valid() -> None:
     assert date_problem(D(2011, 5, 28)) is None
     # IS-GPS-200: the 10-bit week number rolls over every 1024 weeks = 7168 days (hand arithmetic)
     assert ROLLOVER_DAYS == 7168
-    # 2019-04-07 was a rollover day (shared/REFERENCES.md); 7168 days earlier is 1999-08-22
+    # 2019-04-07 was a rollover day (docs/sources.md#gps-time); 7168 days earlier is 1999-08-22
     assert D(2019, 4, 7) - dt.timedelta(days=7168) == D(1999, 8, 22)
     assert "1024 weeks" in (date_problem(D(1999, 8, 22), ref=D(2019, 4, 7)) or "")
     assert date_problem(D(2019, 4, 6), ref=D(2019, 4, 7)) is None

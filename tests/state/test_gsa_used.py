@@ -17,7 +17,7 @@ CORPUS = Path(__file__).resolve().parents[3] / "shared" / "realdata" / "corpus"
 
 
 def cs(body: str) -> bytes:
-    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (REFERENCES.md)."""
+    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (docs/sources.md#checksum)."""
     x = 0
     for b in body.encode():
         x ^= b
@@ -36,7 +36,7 @@ SKY = [
     "GAGSV,1,1,04,10,71,255,30,12,82,078,21,16,46,244,34,24,34,212,38",
     "GBGSV,1,1,04,11,48,106,36,34,23,110,32,42,46,124,38,43,75,125,32",
 ]
-# One GSA per constellation, all GP, no system ID (pre-4.10 practice, REFERENCES.md)
+# One GSA per constellation, all GP, no system ID (pre-4.10 practice, docs/sources.md#gsa-per-constellation)
 GSAS = ["GPGSA,A,3,10,23,27,,,,,,,,,,2.1,1.3,1.7",
         "GPGSA,A,3,69,,,,,,,,,,,,2.1,1.3,1.7",
         "GPGSA,A,3,10,12,16,24,,,,,,,,,2.1,1.3,1.7",
@@ -83,7 +83,7 @@ def test_block_reading_wins_when_it_is_in_view() -> None:
 
 def test_three_digit_beidou_and_other_blocks() -> None:
     # BeiDou written 201-263 or 401-463, Galileo 301-336, QZSS 193-, SBAS 120-158 written as is
-    # (shared/REFERENCES.md, from memory; "ranges such as 201-263 or 401-463 for BeiDou")
+    # (docs/sources.md#satellite-numbers, from memory: 201-263 or 401-463 for BeiDou)
     assert [user_prn(None, n) for n in (203, 263, 401, 463, 305, 193, 133)] == [
         ("C", 3), ("C", 63), ("C", 1), ("C", 63), ("E", 5), ("J", 1), ("S", 133)]
     eps = run([[gga("120000.00", n=4), "GNGSA,A,3,203,214,438,458,,,,,,,,,2.0,1.1,1.7",
@@ -92,7 +92,7 @@ def test_three_digit_beidou_and_other_blocks() -> None:
 
 
 def test_unknown_numbers_are_reported_not_dropped() -> None:
-    # 97-119 and 159-192 fit no NMEA block (REFERENCES.md: "treat unknown ranges as unknown")
+    # 97-119 and 159-192 fit no NMEA block (docs/sources.md#satellite-numbers: a number no block fits is unknown)
     eps = run([[gga("120000.00", n=3), "GNGSA,A,3,05,99,170,,,,,,,,,,2.0,1.1,1.7",
                 "GPGSV,1,1,02,05,40,050,45,99,35,120,44"]])
     ep = eps[0]
@@ -101,7 +101,7 @@ def test_unknown_numbers_are_reported_not_dropped() -> None:
 
 
 def test_system_id_of_nmea_410_still_places() -> None:
-    # NMEA 4.10 system IDs (REFERENCES.md): 1 GPS, 2 GLONASS, 3 Galileo, 4 BeiDou; numbers native
+    # NMEA 4.10 system IDs (docs/sources.md#system-ids): 1 GPS, 2 GLONASS, 3 Galileo, 4 BeiDou; numbers native
     eps = run([[gga("120000.00", n=6), "GNGSA,A,3,03,07,,,,,,,,,,,1.8,0.9,1.5,1",
                 "GNGSA,A,3,66,,,,,,,,,,,,1.8,0.9,1.5,2", "GNGSA,A,3,11,,,,,,,,,,,,1.8,0.9,1.5,3",
                 "GNGSA,A,3,22,401,,,,,,,,,,,1.8,0.9,1.5,4"]])

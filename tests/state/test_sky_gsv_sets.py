@@ -17,7 +17,7 @@ CORPUS = Path(__file__).resolve().parents[3] / "shared" / "realdata" / "corpus"
 
 
 def cs(body: str) -> bytes:
-    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (REFERENCES.md)."""
+    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (docs/sources.md#checksum)."""
     x = 0
     for b in body.encode():
         x ^= b
@@ -73,7 +73,7 @@ def test_set_spanning_talkers_repeats_with_line_cache_on_and_off() -> None:
 
 def test_gn_parts_take_constellation_from_the_nmea_ranges() -> None:
     # A set listed under GN: 1-32 GPS, 33-64 SBAS (PRN = n + 87), 65-96 GLONASS (slot + 64)
-    # (NMEA 0183, REFERENCES.md, from memory); a GN part inside a mixed set reads the same way
+    # (NMEA 0183, docs/sources.md#satellite-numbers, from memory); a GN part inside a mixed set reads the same way
     sm, _ = feed(["GPGSV,2,1,06,07,40,050,45,08,35,120,44,44,30,200,40,70,20,280,41",
                   "GNGSV,2,2,06,71,50,330,46,09,15,020,38"])
     assert sorted(s.label for s in sm.sky()) == ["G07", "G08", "G09", "R06", "R07", "S131"]
@@ -106,7 +106,7 @@ def test_lost_part_keeps_what_arrived_whole() -> None:
 
 
 def test_signal_sets_interleave() -> None:
-    # NMEA 4.10 GSV signal IDs (REFERENCES.md, from memory): GPS 1 = L1 C/A, 8 = L5-Q; one set per
+    # NMEA 4.10 GSV signal IDs (docs/sources.md#signal-ids, from memory): GPS 1 = L1 C/A, 8 = L5-Q; one set per
     # constellation and signal, parts of the two sets interleaved
     sm, _ = feed(["GPGSV,2,1,05,01,40,083,46,02,17,308,41,12,07,344,39,14,22,228,45,1",
                   "GPGSV,1,1,02,01,40,083,44,12,07,344,36,8",

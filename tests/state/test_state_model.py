@@ -13,7 +13,7 @@ from livefix.decode import Decoded
 from livefix.sources.base import Link, LinkEvent, Marker
 from livefix.state import StateModel
 
-# Public example sentences (D. DePriest's NMEA data reference page, see shared/REFERENCES.md).
+# Public example sentences (docs/sources.md#example-sentences).
 GGA = b"$GPGGA,123519,4807.038,N,01131.000,E,1,08,0.9,545.4,M,46.9,M,,*47"
 RMC = b"$GPRMC,123519,A,4807.038,N,01131.000,E,022.4,084.4,230394,003.1,W*6A"
 GSA = b"$GPGSA,A,3,04,05,,09,12,,,24,,,,,2.5,1.3,2.1*39"
@@ -84,7 +84,7 @@ def test_untimed_lines_first_adopt_the_time() -> None:
 
 
 def test_quality_from_mode_letters_without_gga() -> None:
-    # RMC/GNS mode letters -> GGA quality (NMEA 0183 via REFERENCES.md; F/R from memory)
+    # RMC/GNS mode letters -> GGA quality (NMEA 0183 via docs/sources.md#mode-letters; F/R from memory)
     for mode, q in (("A", 1), ("D", 2), ("R", 4), ("F", 5), ("E", 6), ("N", 0)):
         sm = StateModel()
         feed(sm, [line(f"GNRMC,101010.00,A,4807.038,N,01131.000,E,0.0,,230394,,,{mode},V")])

@@ -10,7 +10,7 @@ from livefix.state import StateModel
 from livefix.state.epoch import SYSTEM_ID
 from livefix.state.sky import GsvAssembler
 
-GSV = b"$GPGSV,2,1,08,01,40,083,46,02,17,308,41,12,07,344,39,14,22,228,45*75"  # public example (REFERENCES.md)
+GSV = b"$GPGSV,2,1,08,01,40,083,46,02,17,308,41,12,07,344,39,14,22,228,45*75"  # public example (docs/sources.md#example-sentences)
 
 
 def line(body: str) -> bytes:
@@ -70,7 +70,7 @@ def test_incomplete_sets_keep_what_is_whole() -> None:
 
 
 def test_groups_per_talker_and_signal() -> None:
-    # NMEA 4.10 GSV signal ids (REFERENCES.md, from memory): GPS 1 = L1 C/A, 8 = L5-Q; GLONASS 1 = G1
+    # NMEA 4.10 GSV signal ids (docs/sources.md#signal-ids, from memory): GPS 1 = L1 C/A, 8 = L5-Q; GLONASS 1 = G1
     sm = StateModel()
     feed(sm, [line("GPGSV,1,1,01,10,45,100,42,1"), line("GPGSV,1,1,01,10,45,100,38,8"),
               line("GLGSV,1,1,01,70,30,200,35,1")])
@@ -89,7 +89,7 @@ def test_glonass_and_sbas_numbering() -> None:
 
 
 def test_gsa_system_ids_and_used() -> None:
-    # NMEA 4.10 GSA system id (REFERENCES.md) - our table must agree with pynmeagps' SYSTEMID
+    # NMEA 4.10 GSA system id (docs/sources.md#system-ids) - our table must agree with pynmeagps' SYSTEMID
     names = {"G": "GPS", "R": "GLONASS", "E": "Galileo", "C": "Beidou", "J": "QZSS", "I": "NavIC"}
     assert {str(k): names[v] for k, v in SYSTEM_ID.items()} == SYSTEMID
     sm = StateModel()

@@ -1,0 +1,109 @@
+"""Satellites in view, tracked and used per constellation: median and minimum over the session.
+
+Why: a site record states how many satellites of each system the antenna saw and used, and the
+minimum says more about a site than the mean (the worst moment is when a fix is lost). Counts are
+small whole numbers, so an exact histogram of counts (a few dozen bins) gives the exact median in
+bounded memory; the counts change only when the sky does, so they are added as runs of epochs.
+A satellite is counted once however many signals it is listed with; "tracked" means a C/N0 is
+given for at least one signal; "used" is the epoch's used set (GSA lists, livefix.state.used).
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+from livefix.state.epoch import Epoch
+
+KINDS = ("in_view", "tracked", "used")
+ALL = "all"  # the key of the totals over every constellation
+
+
+def _kth(hist: dict[int, int], k: int) -> int:
+    """The k-th smallest count (0-based) of a histogram of counts."""
+    acc = 0
+    for v in sorted(hist):
+        acc += hist[v]
+        if acc > k:
+            return v
+    return max(hist)
+
+
+def median_of(hist: dict[int, int]) -> float | None:
+    """The median as numpy.median gives it (the mean of the two middle values for an even count)."""
+    n = sum(hist.values())
+    if not n:
+        return None
+    return (_kth(hist, (n - 1) // 2) + _kth(hist, n // 2)) / 2
+
+
+def epoch_counts(ep: Epoch) -> dict[str, tuple[int, int, int]]:
+    """(in view, tracked, used) satellites per system letter and over all systems."""
+    sats = ep.sats
+    view = {(s.system, s.prn) for s in sats}
+    tracked = {(s.system, s.prn) for s in sats if s.cn0 is not None}
+    used = {(s.system, s.prn) for s in sats if s.used}
+    used.update(ep.used_prns)
+    rows: dict[str, list[int]] = {}
+    for i, group in enumerate((view, tracked, used)):
+        for system, _prn in group:
+            r = rows.get(system)
+            if r is None:
+                r = rows[system] = [0, 0, 0]
+            r[i] += 1
+    out = {k: (r[0], r[1], r[2]) for k, r in rows.items()}
+    out[ALL] = (len(view), len(tracked), len(used))
+    return out
+
+
+class SatCounts:
+    """Per-system histograms of the counts of satellites in view, tracked and used per epoch.
+
+    Epochs count from the first one with satellites in view (GSV): before it, a count of 0 would
+    say nothing about the site; a system first seen later counts 0 for the epochs before."""
+
+    def __init__(self) -> None:
+        self.reset()
+
+    def reset(self) -> None:
+        self.hist: dict[str, tuple[dict[int, int], ...]] = {}
+        self.epochs = 0  # epochs added to the histograms
+        self._cur: dict[str, tuple[int, int, int]] = {}
+        self._run = 0
+        self._sats: object = None
+        self._used: object = None
+
+    def on_epoch(self, ep: Epoch) -> None:
+        sats, used = ep.sats, ep.used_prns
+        if sats is not self._sats or used is not self._used:
+            if not self._run and not self.epochs and not sats:
+                return  # no GSV set yet: a count of 0 in view would say nothing about the site
+            self._sats, self._used = sats, used
+            counts = epoch_counts(ep)
+            if counts != self._cur:
+                self._flush()
+                self._cur = counts
+        self._run += 1
+
+    def _flush(self) -> None:
+        run = self._run
+        if not run:
+            return
+        for system in self._cur:
+            if system not in self.hist:  # a newcomer counted 0 for the epochs before
+                self.hist[system] = tuple({0: self.epochs} if self.epochs else {} for _ in KINDS)
+        for system, hs in self.hist.items():
+            for h, c in zip(hs, self._cur.get(system, (0, 0, 0)), strict=True):
+                h[c] = h.get(c, 0) + run
+        self.epochs += run
+        self._run = 0
+
+    def snapshot(self) -> dict[str, Any]:
+        self._flush()
+        by_system = {}
+        for system in sorted(self.hist, key=lambda s: (s == ALL, s)):
+            by_system[system] = {kind: {"median": median_of(h), "min": min(h) if h else None,
+                                        "max": max(h) if h else None}
+                                 for kind, h in zip(KINDS, self.hist[system], strict=True)}
+        return {"epochs": self.epochs, "by_system": by_system,
+                "basis": "satellites per epoch from the first epoch with satellites in view (GSV); one "
+                         "count per satellite whatever its signals"}
