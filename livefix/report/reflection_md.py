@@ -28,9 +28,9 @@ def reflection_section(refl: dict[str, Any] | None) -> list[str]:
                 f"showed an oscillation above the detection floor of "
                 f"{md_text(fmt_value(refl.get('mp_floor_db'), 2, 'dB'))} peak to peak.", ""]
     else:
-        out += [f"Reflector height {md_text(fmt_value(refl.get('height_m'), 2, 'm'))} (median of {refl.get('arcs', 0)} "
+        out += [f"Reflector height {md_text(fmt_value(refl.get('height_m'), 3, 'm'))} (median of {refl.get('arcs', 0)} "
                 f"accepted arc{'' if refl.get('arcs') == 1 else 's'}, spread "
-                f"{md_text(fmt_value(refl.get('spread_m'), 2, 'm'))}); multipath "
+                f"{md_text(fmt_value(refl.get('spread_m'), 3, 'm'))}); multipath "
                 f"{md_text(fmt_value(refl.get('mp_db'), 1, 'dB'))} peak to peak; {refl.get('arcs_evaluated', 0)} arcs "
                 f"evaluated between {cfg.get('el_min_deg', '?')} and {cfg.get('el_max_deg', '?')} deg elevation, "
                 f"{refl.get('arcs_in_progress', 0)} in progress.", ""]
@@ -40,8 +40,8 @@ def reflection_section(refl: dict[str, Any] | None) -> list[str]:
         for s in sectors:
             note = " (tentative)" if s.get("tentative") else ""
             out.append(_row([f"{s['az_from']:g}-{s['az_to']:g} deg", f"{s['arcs']}{note}",
-                             md_text(fmt_value(s.get("height_m"), 2, "m")),
-                             md_text(fmt_value(s.get("spread_m"), 2, "m")),
+                             md_text(fmt_value(s.get("height_m"), 3, "m")),
+                             md_text(fmt_value(s.get("spread_m"), 3, "m")),
                              md_text(fmt_value(s.get("mp_db"), 1, "dB"))]))
         out.append("")
     fresnel = refl.get("fresnel") or []
