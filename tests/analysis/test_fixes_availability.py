@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 import pytest
+from nmeakit import line as _nmea  # checksum from the standard's definition
 
 from livefix.pipeline import Pipeline, run_items
 from livefix.sources import open_source
@@ -22,11 +23,6 @@ W0 = 1_780_000_000.0  # host UTC of the first chunk (invented)
 CORPUS = Path(__file__).resolve().parents[3] / "shared" / "realdata" / "corpus"
 
 
-def _nmea(body: str) -> bytes:
-    cs = 0
-    for ch in body.encode():
-        cs ^= ch
-    return f"${body}*{cs:02X}\r\n".encode()
 
 
 def _hms(sec: int) -> str:

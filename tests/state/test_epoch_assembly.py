@@ -10,16 +10,10 @@ from __future__ import annotations
 
 import datetime as dt
 
+from nmeakit import sentence as cs  # checksum from the standard's definition
+
 from livefix.decode.decoder import Decoder
 from livefix.state import StateModel
-
-
-def cs(body: str) -> bytes:
-    """An invented sentence with its NMEA 0183 checksum (XOR of the bytes between '$' and '*')."""
-    x = 0
-    for b in body.encode():
-        x ^= b
-    return f"${body}*{x:02X}".encode()
 
 
 def hms(t: float) -> str:

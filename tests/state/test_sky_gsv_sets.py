@@ -8,6 +8,7 @@ from collections import Counter
 from pathlib import Path
 
 import pytest
+from nmeakit import sentence as cs  # checksum from the standard's definition
 
 from livefix.decode.decoder import Decoder
 from livefix.state import StateModel
@@ -16,12 +17,6 @@ from livefix.state.gsv import GsvAssembler
 CORPUS = Path(__file__).resolve().parents[3] / "shared" / "realdata" / "corpus"
 
 
-def cs(body: str) -> bytes:
-    """A sentence with its NMEA 0183 checksum: XOR of the bytes between '$' and '*' (docs/sources.md#checksum)."""
-    x = 0
-    for b in body.encode():
-        x ^= b
-    return f"${body}*{x:02X}".encode()
 
 
 # One set of 13 satellites whose parts come from three talkers, all "x of 4" (invented values).
