@@ -30,19 +30,15 @@ from statistics import median
 
 from livefix.dates import CONFIRM_EPOCHS, date_problem, jump_limit
 from livefix.items import Chunk, Item, Link, LinkEvent
-from livefix.record.linetime import TIMED_KINDS, LineTime, line_blocks, line_time, pieces
+from livefix.record.linetime import LineTime, TimeReader, line_time, pieces, text_blocks
+from livefix.record.linetime import wrap_step as _wrap
+from livefix.record.plainblock import CHUNK_MAX, BlockFeed
 
-CHUNK_MAX = 65536
-HOLD_MAX = 1 << 20
-LEARN_STEPS = 3  # timed steps that fix the nominal interval for the untimed bursts that came before  # bytes held back while waiting for a first date or a jump's confirmation
+HOLD_MAX = 1 << 20  # bytes held back while waiting for a first date or a jump's confirmation
+LEARN_STEPS = 3  # timed steps that fix the nominal interval for the untimed bursts that came before
 STALL_S = 2.0  # same limit as the live sources: a silent gap this long becomes STALLED
 _DAY = 86400.0
 _EPOCH0 = _dt.date(1970, 1, 1)
-
-
-def _wrap(step: float) -> float:
-    """A time-of-day step folded into [-12 h, +12 h): a midnight rollover is a small step."""
-    return (step + _DAY / 2) % _DAY - _DAY / 2
 
 
 def _midnight(d: _dt.date) -> float:
@@ -62,13 +58,15 @@ class _Jump:
         self.size = 0
 
 
-class PlainStamper:
-    """Sans-I/O: feed raw lines (terminators included), get stamped items back."""
+class PlainStamper(BlockFeed):
+    """Sans-I/O: feed raw lines (terminators included) or blocks of whole lines (feed_block),
+    get stamped items back."""
 
     def __init__(self) -> None:
         self.time_faults = 0  # leaps not confirmed by the following epochs
         self.untimed_epochs = 0  # bursts paced without a time
         self._steps: deque[float] = deque(maxlen=15)
+        self._nominal = 1.0  # median of _steps, kept with it (read several times an epoch)
         self._mono = 0.0
         self._seg = bytearray()  # bytes of the current stamp
         self._ready: list[tuple[float, str, bytes]] = []  # (mono, what, data) waiting for a wall
@@ -86,6 +84,7 @@ class PlainStamper:
         self._fix_times = False  # the log has timed fix sentences (then ZDA only dates)
         self._date_bad = False  # the receiver's latest date is a default one
         self._prev_bad: _dt.date | None = None
+        self._problem: tuple[tuple, str | None] = ((), None)  # (date, good, prev_bad) -> _date's verdict
         self._good: _dt.date | None = None  # the latest valid date
         self._jump: _Jump | None = None
         self._valid: tuple[float, float] | None = None  # (wall, mono) of the last validly dated epoch
@@ -98,10 +97,11 @@ class PlainStamper:
         # items are held until the nominal interval is learned and those bursts are re-paced
         self._lead: float | None = None
         self._last_emit: float | None = None
+        self._reader = TimeReader()  # line_time for the block path, parsing an epoch's time once
 
     @property
     def nominal_s(self) -> float:
-        return median(self._steps) if self._steps else 1.0
+        return self._nominal
 
     # -- input ----------------------------------------------------------------------------
     def feed(self, line: bytes) -> list[Item]:
@@ -113,22 +113,6 @@ class PlainStamper:
         if len(self._seg) >= CHUNK_MAX:
             self._close_seg()
         return self._release()
-
-    def feed_lines(self, lines: list[bytes]) -> list[Item]:
-        """feed() for each line, the same items: a line that cannot carry a time (one sentence, not
-        of a timed type) only joins the current stamp, so nothing else is done for it then."""
-        out: list[Item] = []
-        seg, timed, free = self._seg, TIMED_KINDS, self._jump is None
-        for line in lines:
-            if free and (line[3:6] not in timed or line[:1] != b"$") and line.find(b"$", 1) < 0:
-                seg += line
-                if len(seg) >= CHUNK_MAX:
-                    self._close_seg()
-                    out += self._release()
-            else:
-                out += self.feed(line)
-                free = self._jump is None
-        return out
 
     def finish(self) -> list[Item]:
         if self._jump is not None:
@@ -185,15 +169,16 @@ class PlainStamper:
         if last is None:
             self._accept(tod, self._mono + (self.nominal_s if self._epochs else 0.0), 0.0)
         else:
-            step = _wrap(tod - last)
+            step, nom = _wrap(tod - last), self._nominal
             if step == 0:
                 self._keys.add(t.key)
-            elif -jump_limit(self.nominal_s) <= step <= self._limit():
+            elif -jump_limit(nom) <= step <= jump_limit(nom) + self._untimed * nom:  # _limit()
                 at = self._tod_mono + step  # a small step back (a receiver re-aligning its
                 if self._untimed:  # time of fix) keeps mono where it is
                     at = max(at, self._mono + self.nominal_s)
                 elif step > 0:
                     self._steps.append(step)
+                    self._nominal = median(self._steps)
                 self._accept(tod, max(at, self._mono), step)
                 if self._lead is not None and len(self._steps) >= LEARN_STEPS:
                     self._repace_lead()
@@ -295,7 +280,10 @@ class PlainStamper:
 
     def _date(self, d: _dt.date, tod: float) -> None:
         """The date of the current epoch (time of day `tod`) as the receiver states it."""
-        if date_problem(d, self._good, self._prev_bad):
+        key = (d, self._good, self._prev_bad)
+        if key != self._problem[0]:  # the same date again (every RMC, ZDA): judged once
+            self._problem = (key, date_problem(*key))
+        if self._problem[1]:
             self._date_bad, self._prev_bad = True, d
             return
         self._date_bad, self._good, self._dated = False, d, True
@@ -395,8 +383,9 @@ class PlainStamper:
 
 
 def iter_plain(f, limit: int = CHUNK_MAX) -> Iterator[Item]:  # noqa: ANN001 - binary file
-    """Stamped items from a binary file object of NMEA text (any junk kept)."""
+    """Stamped items from a binary file object of NMEA text (any junk kept). Read a block at a
+    time (livefix.record.plainblock); the items are those of feed() on each f.readline(limit)."""
     st = PlainStamper()
-    for lines in line_blocks(f, limit):
-        yield from st.feed_lines(lines)
+    for block in text_blocks(f, limit):
+        yield from st.feed_lines(block) if type(block) is list else st.feed_block(block)
     yield from st.finish()

@@ -146,18 +146,24 @@ class StateModel:
         """Events from outside the stream (the session's recording start/stop, notes)."""
         self._emit(mono, wall, kind, text, data=data or {})
 
-    def on_sentence(self, msg: Decoded, mono: float, wall: float) -> list[Epoch]:
+    def on_sentence(self, msg: Decoded, mono: float, wall: float) -> list[Epoch] | tuple[()]:
+        """One decoded sentence; returns the epochs it completed (usually none: the shared `()`)."""
         self._mono, self._wall = mono, wall
         if msg.proprietary:
-            return []
+            return ()
         mid = msg.msg_id
-        if mid == "TXT":  # receiver text (antenna status, boot banners): an event, rate-limited
-            self._on_txt(msg, mono, wall)
-            return []
-        out: list[Epoch] = []
         op = self._open
-        timed = mid in TIMED
-        if timed:
+        out: list[Epoch] | tuple[()] = ()
+        if mid not in TIMED:  # GSA, GSV, VTG, ZDA, GST, TXT...: join the open epoch (most lines)
+            if mid == "TXT":  # receiver text (antenna status, boot banners): an event, rate-limited
+                self._on_txt(msg, mono, wall)
+                return ()
+            if op is not None and op.tod is None and mono - op.mono > UNTIMED_GAP_S:
+                out = [self._close()]
+                op = None
+            if op is None:
+                op = self._open = _Open(mono, wall, None)
+        else:
             t = msg.fields.get("time")
             if t is self._tod_of:  # the decoder shares one time object per text: GGA, RMC, ... alike
                 tod = self._tod
@@ -165,11 +171,8 @@ class StateModel:
                 tod = (t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
                        if isinstance(t, _dt.time) else None)  # tod_seconds, inline (hot path)
                 self._tod_of, self._tod = t, tod
-        else:
-            tod = None
-        if op is not None:
-            if timed:
-                key = msg.talker + mid
+            key = msg.talker + mid
+            if op is not None:
                 if tod is not None and op.tod is None and not op.timed_keys:
                     op.tod = tod  # untimed lines came first: this epoch's time is now known
                 elif tod is not None and tod == self._closed_tod and op.tod not in (None, tod):
@@ -178,19 +181,16 @@ class StateModel:
                 elif tod is not None and tod == op.tod:
                     pass  # the same time of fix from another talker (GP/GL/GN) or repeated: one epoch
                 elif key in op.timed_keys or tod != op.tod:
-                    out.append(self._close())
-            elif op.tod is None and mono - op.mono > UNTIMED_GAP_S:
-                out.append(self._close())
-        op = self._open
-        if op is None:
-            op = self._open = _Open(mono, wall, tod)
+                    out = [self._close()]
+                    op = None
+            if op is None:
+                op = self._open = _Open(mono, wall, tod)
+            op.timed_keys.add(key)
         if self._gst_ahead is not None and self._gst_ahead[0] == op.tod:  # its GST came first
             op.by_type.setdefault("GST", self._gst_ahead[1])
             self._gst_ahead = None
         if len(op.sentences) < MAX_SENTENCES:  # add the sentence to the open epoch
             op.sentences.append(mid)
-        if timed:
-            op.timed_keys.add(msg.talker + mid)
         handler = _HANDLERS.get(mid)
         if handler is not None:
             handler(self, op, msg, mono)
