@@ -35,16 +35,30 @@ MAX_UNKNOWN_IDS = 64  # distinct unknown satellite labels listed in the snapshot
 
 def used_geometry(ep: Epoch) -> tuple[tuple[float, float, str], ...]:
     """(az, el, system) of used satellites, one per (system, prn), sorted for a stable cache key."""
+    return _used(ep)[0]
+
+
+def _used(ep: Epoch) -> tuple[tuple[tuple[float, float, str], ...], int]:
+    """used_geometry(ep) and the number of used satellites with or without az/el (flagged in the
+    sky or listed in GSA), from one pass over the satellites."""
     listed = set(ep.used_prns)
     seen: dict[tuple[str, int], tuple[float, float, str]] = {}
+    flagged: set[tuple[str, int]] = set()
     for s in ep.sats:
-        az, el = s.azim, s.elev
-        if el is None or az is None:
+        used = s.used
+        if not (used or listed):  # neither flagged nor possibly listed: nothing to count
             continue
         k = (s.system, s.prn)
-        if k not in seen and (s.used or k in listed):  # the first listed signal of a satellite
-            seen[k] = (float(az), float(el), k[0])
-    return tuple([seen[k] for k in sorted(seen)])
+        if used:
+            flagged.add(k)
+        if k in seen or not (used or k in listed):  # the first listed signal of a satellite ...
+            continue
+        az, el = s.azim, s.elev
+        if el is None or az is None:  # ... that has a direction
+            continue
+        seen[k] = (float(az), float(el), k[0])
+    flagged.update(listed)
+    return tuple([seen[k] for k in sorted(seen)]), len(flagged)
 
 
 def _differs(rep: float | None, calc: dict[str, float] | None, key: str) -> bool:
@@ -89,9 +103,9 @@ class DopStats:
     def on_epoch(self, ep: Epoch) -> None:
         sats, used = ep.sats, ep.used_prns
         if sats is not self._sats or (used is not self._used and used != self._used):  # reused tuples
-            self._geo = used_geometry(ep)  # the state model hands out a new tuple only on a change
+            # the state model hands out a new tuple only on a change
+            self._geo, self.current_used_listed = _used(ep)
             self._sats, self._used = sats, used
-            self.current_used_listed = len({(s.system, s.prn) for s in sats if s.used} | set(used))
             if self._geo != self._cache_key:  # az/el are whole degrees and change slowly: cache
                 self._new_geometry(self._geo)
         pdop, hdop, vdop = ep.pdop, ep.hdop, ep.vdop

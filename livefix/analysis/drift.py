@@ -18,6 +18,7 @@ correlated noise it is still somewhat short, which the "run longer" advice cover
 from __future__ import annotations
 
 import math
+from collections.abc import Iterable, Sequence
 
 import numpy as np
 
@@ -98,19 +99,32 @@ class BlockMeans:
         self._ku = 0  # samples with a height (u NaN otherwise: not summed)
 
     def add(self, t: float, e: float, n: float, u: float) -> None:
-        if self._start is None:
-            self._start = t
-        elif t - self._start >= self.block_s:
-            self.flush()
-            self._start = t
-        acc = self._acc
-        acc[0] += t
-        acc[1] += e
-        acc[2] += n
-        if u == u:
-            acc[3] += u
-            self._ku += 1
-        self._k += 1
+        self.add_rows(((t, e, n, u),))
+
+    def add_rows(self, rows: Iterable[Sequence[float]]) -> None:
+        """add(t, e, n, u) for each row (t, e, n, u, ...) in order, the sums kept in locals."""
+        start, block_s = self._start, self.block_s
+        a0, a1, a2, a3 = self._acc
+        k, ku = self._k, self._ku
+        for row in rows:
+            t, e, n, u = row[0], row[1], row[2], row[3]
+            if start is None:
+                start = t
+            elif t - start >= block_s:
+                self._acc, self._k, self._ku = [a0, a1, a2, a3], k, ku
+                self.flush()  # a fresh zero sum
+                a0 = a1 = a2 = a3 = 0.0
+                k = ku = 0
+                start = t
+            a0 += t
+            a1 += e
+            a2 += n
+            if u == u:
+                a3 += u
+                ku += 1
+            k += 1
+        self._start = start
+        self._acc, self._k, self._ku = [a0, a1, a2, a3], k, ku
 
     def _mean(self) -> list[float]:
         k, a = self._k, self._acc

@@ -26,6 +26,7 @@ from livefix.analysis.reflectors import ReflectionStats
 from livefix.analysis.signal import SignalStats
 from livefix.analysis.sky import SkyMap
 from livefix.analysis.span import SessionSpan
+from livefix.analysis.streaming import fix_memo
 from livefix.analysis.trend import Trend
 from livefix.faults import log_internal
 from livefix.state.epoch import Epoch, Event
@@ -40,16 +41,18 @@ class Analyzer:
         self._log = EventLog(max_events)
         cfg, emit = self.config, self._log.add
         ecef = EcefMemo()  # the latest epoch's ECEF, shared by the stages that project it (per Analyzer)
-        self.fix = FixStats(cfg, emit, ecef)
+        fixed = fix_memo()  # valid_fix of the latest epoch, shared the same way
+        self.fix = FixStats(cfg, emit, ecef, fixed)
         self.integrity = StreamIntegrity(cfg, emit, on_gap=self.fix.note_data_gap)  # a stall is a data gap
-        self.position = PositionStats(cfg, emit, ecef)
+        self.position = PositionStats(cfg, emit, ecef, fixed)
+        self.position.clock = self.fix.clock  # one session timeline: fix steps it, position follows
         self.dop = DopStats()
         self.signal = SignalStats(cfg, emit)
         self.sky = SkyMap(cfg)
         self.trend = Trend()
         self.reflection = ReflectionStats(cfg.reflection)
         self.receiver = ReceiverInfo()  # what the receiver announces about itself (TXT)
-        self.span, self.median, self.counts = SessionSpan(), MedianPosition(), SatCounts()  # site record
+        self.span, self.median, self.counts = SessionSpan(), MedianPosition(fixed), SatCounts()  # site record
         self._epoch_stages: tuple[Callable[[Epoch], None], ...] = (
             self.integrity.on_epoch, self.fix.on_epoch, self.position.on_epoch, self.dop.on_epoch,
             self.signal.on_epoch, self.reflection.on_epoch, self.span.on_epoch, self.median.on_epoch,
@@ -162,6 +165,7 @@ class Analyzer:
         for part in (self.integrity, self.fix, self.position, self.dop, self.signal, self.sky, self.trend,
                      self.reflection, self._log, self.span, self.median, self.counts):
             part.reset()
+        self.position.clock = self.fix.clock
         self.internal_errors = 0
         self.last_error = None
         if ref is not None:

@@ -83,10 +83,11 @@ class FixStats:
     """Snapshot key "fix"; see livefix.analysis for the keys."""
 
     def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
-                 ecef: EcefMemo | None = None) -> None:
+                 ecef: EcefMemo | None = None, fixed: Callable[[Epoch], bool] = valid_fix) -> None:
         self.cfg = config
         self.emit = emit
         self._ecef = EcefMemo() if ecef is None else ecef  # shared with the other stages by the Analyzer
+        self._valid = fixed  # valid_fix, or the Analyzer's fix_memo shared with the other stages
         self.reset()
 
     def reset(self) -> None:
@@ -105,6 +106,7 @@ class FixStats:
         self._last_mono: float | None = None  # host time of the latest epoch
         self._gap_split = False  # an outage was cut by a data gap and no fix came since
         self.book = TimeBook()
+        self._fix_marked = False  # book.mark("fix") done
         self.restarts = {"commanded": 0, "receiver": 0}
         self.no_position = 0  # epochs without any position sentence, left out of the fix figures
         self.outages: deque[dict[str, Any]] = deque(maxlen=LIST_CAP)
@@ -209,8 +211,8 @@ class FixStats:
         self.epochs += 1
         if self._prev_t is not None and t > self._prev_t:
             self._add_dt(t - self._prev_t)
-        fixed = valid_fix(ep)
-        name = ep.fix if fixed else "none"
+        fixed = self._valid(ep)
+        name = FIX_NAMES.get(ep.quality, "none") if fixed else "none"  # Epoch.fix
         self.counts[name] = self.counts.get(name, 0) + 1
         # a commanded restart applies from the first epoch begun after it: the epoch in progress
         # when the command went out still belongs to the old start
@@ -228,17 +230,20 @@ class FixStats:
         self._clock_lost = False
         s = self._start
         assert s is not None
-        start_rec.first_epoch(s, ep.quality, fixed)
+        if s["_q0"] is None:  # (tested here too: a call per epoch for the first epoch only)
+            start_rec.first_epoch(s, ep.quality, fixed)
         if not fixed:
             self._await_loss = False
         elif not self._await_loss:
             self._acquiring = False
-            start_rec.on_fix(s, t, ep.quality)
+            if s["_wait"]:  # some TTFF of this start still waits (as start_rec.on_fix tests)
+                start_rec.on_fix(s, t, ep.quality)
         bucket = RESTART if self._acquiring and not fixed else name
         regained = self._account(ep, t, abs_t, bucket, gap)
         if fixed:
-            if not self.book.has_mark("fix"):
+            if not self._fix_marked:  # book.has_mark("fix"), remembered
                 self.book.mark("fix")
+                self._fix_marked = True
             if ep.quality == 4:
                 self.book.mark("rtk_fixed")
             self._jump(ep, t, abs_t, name, check=not regained)
@@ -311,9 +316,9 @@ class FixStats:
     def _jump(self, ep: Epoch, t: float, abs_t: float | None, name: str, check: bool) -> None:
         lat, lon, h = ep.lat, ep.lon, ep.h or 0.0
         proj = self._proj
-        if proj is None:
-            self._frame = LocalFrame(lat, lon, h)
-            proj = self._proj = Projector(self._frame, self._ecef)
+        if proj is None:  # the position statistics anchor at the same floats: one shared projector
+            proj = self._proj = self._ecef.projector(lat, lon, h)
+            self._frame = proj.frame
         e, n, _ = proj.enu(lat, lon, h)
         lf = self._last_fix
         rec = self._recent.get(name)

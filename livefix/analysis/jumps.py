@@ -29,6 +29,7 @@ from livefix.timefmt import iso
 EW_N = 300.0  # memory of the settled centre and spread, epochs
 WARMUP = 20  # accepted epochs of a fix type before excursions are looked for
 LIST_CAP = 100  # newest excursions listed; older ones only counted
+_EW_A = 1.0 / EW_N
 
 
 class _Centre:
@@ -45,7 +46,9 @@ class _Centre:
 
     def add(self, e: float, n: float, u: float) -> None:
         self.n += 1
-        a = max(1.0 / self.n, 1.0 / EW_N)
+        a = 1.0 / self.n  # max(1 / n, 1 / EW_N) without the builtin call
+        if _EW_A > a:
+            a = _EW_A
         c = self.c
         de, dn = e - c[0], n - c[1]
         c[0] += a * de
@@ -53,7 +56,9 @@ class _Centre:
         self.vh = (1 - a) * (self.vh + a * (de * de + dn * dn))
         if u == u:  # finite height (NaN when the epoch has none)
             self.nu += 1
-            b = max(1.0 / self.nu, 1.0 / EW_N)
+            b = 1.0 / self.nu
+            if _EW_A > b:
+                b = _EW_A
             du = u - c[2]
             c[2] += b * du
             self.vu = (1 - b) * (self.vu + b * du * du)
@@ -74,9 +79,12 @@ class Jumps:
         self.excluded_s = 0.0
 
     def limits(self, fix: str, c: _Centre) -> tuple[float, float]:
-        k = self.cfg.jump_sigma
-        return (max(self.lim_h.get(fix, self.cfg.jump_m), k * math.sqrt(c.vh)),
-                max(self.lim_v.get(fix, 2.0 * self.cfg.jump_m), k * math.sqrt(c.vu)))
+        """max(radius of the fix type, k sigma), horizontal and vertical (max() spelt out: hot)."""
+        cfg = self.cfg
+        k, sqrt = cfg.jump_sigma, math.sqrt
+        lh, sh = self.lim_h.get(fix, cfg.jump_m), k * sqrt(c.vh)
+        lv, sv = self.lim_v.get(fix, 2.0 * cfg.jump_m), k * sqrt(c.vu)
+        return (sh if sh > lh else lh, sv if sv > lv else lv)
 
     def check(self, fix: str, t: float, abs_t: float | None, e: float, n: float, u: float) -> bool:
         """True when the epoch (session time t) is settled behaviour, False inside an excursion."""
@@ -87,8 +95,9 @@ class Jumps:
             c.add(e, n, u)
             return True
         lh, lv = self.limits(fix, c)
-        dh = math.hypot(e - c.c[0], n - c.c[1])
-        dv = abs(u - c.c[2]) if u == u and c.nu >= WARMUP else 0.0
+        cc = c.c
+        dh = math.hypot(e - cc[0], n - cc[1])
+        dv = abs(u - cc[2]) if u == u and c.nu >= WARMUP else 0.0
         out = dh > lh or dv > lv
         x = self.open.get(fix)
         if x is None:

@@ -15,6 +15,7 @@ width in use is published.
 from __future__ import annotations
 
 import math
+from collections.abc import Callable, Iterable
 from typing import Any
 
 from livefix.analysis.streaming import valid_fix
@@ -24,6 +25,7 @@ MAX_BINS = 2048  # per coordinate: memory stays a few hundred kB whatever the se
 DEG_WIDTH = 1e-8  # starting bin width of latitude and longitude, degrees (about 1 mm)
 M_WIDTH = 0.001  # starting bin width of heights, metres
 M_PER_DEG = 111_320.0  # metres per degree of latitude, rounded (common practice)
+BATCH = 64  # fixed epochs waiting before the medians take them (bounded; snapshot() settles them)
 
 
 class BinnedMedian:
@@ -43,26 +45,45 @@ class BinnedMedian:
         self._run = 0
 
     def add(self, x: float) -> None:
-        if x == self._last:
-            self._run += 1
-            return
-        if self._run:
-            self._flush()
-        self._last, self._run = x, 1
+        self.add_many((x,))
+
+    def add_many(self, xs: Iterable[float]) -> None:
+        """add(x) for each x in order: runs of equal values counted, then binned in one pass."""
+        last, run = self._last, self._run
+        runs: list[tuple[float, int]] = []
+        for x in xs:
+            if x == last:
+                run += 1
+                continue
+            if run:
+                runs.append((last, run))
+            last, run = x, 1
+        self._last, self._run = last, run
+        if runs:
+            self._put(runs)
 
     def _flush(self) -> None:
-        x, run = self._last, self._run
-        k = math.floor(x / self.width)
-        b = self.bins.get(k)
-        if b is None:
-            self.bins[k] = [run, x * run]
-            if len(self.bins) > MAX_BINS:
-                self._coarsen()
-        else:
-            b[0] += run
-            b[1] += x * run
-        self._n += run
+        self._put(((self._last, self._run),))
         self._run = 0
+
+    def _put(self, runs: Iterable[tuple[float, int]]) -> None:
+        """Runs of (value, count) into their bins, in order (the bin sums are float sums)."""
+        bins, width, floor, n = self.bins, self.width, math.floor, self._n
+        try:  # finally: the count stays true to the bins even if a value cannot be binned
+            for x, run in runs:
+                k = floor(x / width)
+                b = bins.get(k)
+                if b is None:
+                    bins[k] = [run, x * run]
+                    if len(bins) > MAX_BINS:
+                        self._coarsen()
+                        bins, width = self.bins, self.width
+                else:
+                    b[0] += run
+                    b[1] += x * run
+                n += run
+        finally:
+            self._n = n
 
     @property
     def n(self) -> int:
@@ -98,23 +119,37 @@ class BinnedMedian:
 
 
 class _FixMedians:
-    __slots__ = ("lat", "lon", "h", "alt", "sep")
+    """The five coordinates of one fix type. Epochs wait in a short list (BATCH rows) and go into
+    the medians coordinate by coordinate, in order: the same runs and bins as one at a time."""
+
+    __slots__ = ("lat", "lon", "h", "alt", "sep", "_pend")
 
     def __init__(self) -> None:
         self.lat, self.lon = BinnedMedian(DEG_WIDTH), BinnedMedian(DEG_WIDTH)
         self.h, self.alt, self.sep = BinnedMedian(M_WIDTH), BinnedMedian(M_WIDTH), BinnedMedian(M_WIDTH)
+        self._pend: list[tuple[Any, ...]] = []
 
     def add(self, ep: Epoch) -> None:
-        self.lat.add(ep.lat)  # type: ignore[arg-type]  # valid_fix: not None
-        self.lon.add(ep.lon)  # type: ignore[arg-type]
-        if ep.h is not None:
-            self.h.add(ep.h)
-        if ep.alt_msl is not None and math.isfinite(ep.alt_msl):
-            self.alt.add(ep.alt_msl)
-        if ep.sep is not None and math.isfinite(ep.sep):
-            self.sep.add(ep.sep)
+        p = self._pend
+        p.append((ep.lat, ep.lon, ep.h, ep.alt_msl, ep.sep))  # lat, lon not None: valid_fix
+        if len(p) >= BATCH:
+            self._settle()
+
+    def _settle(self) -> None:
+        rows = self._pend
+        if not rows:
+            return
+        self._pend = []
+        lat, lon, h, alt, sep = zip(*rows, strict=True)
+        self.lat.add_many(lat)
+        self.lon.add_many(lon)
+        self.h.add_many([x for x in h if x is not None])
+        isfinite = math.isfinite
+        self.alt.add_many([x for x in alt if x is not None and isfinite(x)])
+        self.sep.add_many([x for x in sep if x is not None and isfinite(x)])
 
     def snapshot(self) -> dict[str, Any]:
+        self._settle()
         lat = self.lat.quantile()
 
         def r(v: float | None, nd: int) -> float | None:
@@ -135,14 +170,15 @@ class _FixMedians:
 class MedianPosition:
     """Component-wise median latitude, longitude and heights of the fixed epochs, per fix type."""
 
-    def __init__(self) -> None:
+    def __init__(self, fixed: Callable[[Epoch], bool] = valid_fix) -> None:
+        self._valid = fixed  # valid_fix, or the Analyzer's fix_memo shared with the other stages
         self.reset()
 
     def reset(self) -> None:
         self.by_fix: dict[str, _FixMedians] = {}
 
     def on_epoch(self, ep: Epoch) -> None:
-        if not valid_fix(ep):
+        if not self._valid(ep):
             return
         m = self.by_fix.get(ep.fix)
         if m is None:

@@ -64,8 +64,9 @@ class MotionDetector:
         cfg = self.cfg
         w, hw = cfg.motion_window_s, cfg.motion_window_s / 2.0
         full, half = self._full, self._half
-        full.append((t, e, n))
-        half.append((t, e, n))
+        p = (t, e, n)  # one tuple in both windows
+        full.append(p)
+        half.append(p)
         while full[0][0] < t - w:
             full.popleft()
         while half[0][0] < t - hw:
@@ -76,9 +77,11 @@ class MotionDetector:
         slow = speed is not None and speed <= cfg.motion_speed_mps  # Doppler says it stands still
         recent = not slow and t > tm and math.hypot(e - em, n - nm) > need  # the latest half moved
         raw = recent and tm > t0 and math.hypot(em - e0, nm - n0) > need
-        if speed is not None and (self.max_speed is None or speed > self.max_speed):
-            self.max_speed = speed
-        fast = speed is not None and speed >= cfg.motion_fast_mps
+        fast = False
+        if speed is not None:
+            if self.max_speed is None or speed > self.max_speed:
+                self.max_speed = speed
+            fast = speed >= cfg.motion_fast_mps
         self._fast = self._fast + 1 if fast else 0
         if fast and len(full) >= 2:  # the position step agrees with the speed: as good as two epochs
             pt, pe, pn = full[-2]

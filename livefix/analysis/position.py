@@ -57,10 +57,11 @@ class PositionStats:
     """Snapshot key "position" (and "motion" via `motion`); see livefix.analysis for the keys."""
 
     def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
-                 ecef: EcefMemo | None = None) -> None:
+                 ecef: EcefMemo | None = None, fixed: Callable[[Epoch], bool] = valid_fix) -> None:
         self.cfg = config
         self.emit = emit
         self._ecef = EcefMemo() if ecef is None else ecef  # shared with the other stages by the Analyzer
+        self._valid = fixed  # valid_fix, or the Analyzer's fix_memo shared with the other stages
         self._thr_h = dict(config.converge_h)
         self._thr_v = dict(config.converge_v)
         self.reset()
@@ -145,9 +146,9 @@ class PositionStats:
         return h
 
     def on_epoch(self, ep: Epoch) -> None:
-        t = self.clock.step(ep)
+        t = self.clock.follow(ep)  # the Analyzer shares the fix statistics' timeline (stepped there first)
         self._epochs += 1
-        if not valid_fix(ep):
+        if not self._valid(ep):
             self._fixed_now = False
             if not self._was_moving:
                 self.conv.add(t, NAN, NAN, NAN, False, self._target)
@@ -159,9 +160,9 @@ class PositionStats:
         # no height: project at the last height (a height error moves E/N by d/R only)
         hp = h if h is not None else (self._last[2] if self._last else (self.ref[2] if self.ref else 0.0))
         ap = self._anchor_p
-        if ap is None:
-            self.anchor = LocalFrame(lat, lon, hp)
-            ap = self._anchor_p = Projector(self.anchor, self._ecef)
+        if ap is None:  # shared with the fix statistics when they anchored at the same floats
+            ap = self._anchor_p = self._ecef.projector(lat, lon, hp)
+            self.anchor = ap.frame
         e, n, u = ap.enu(lat, lon, hp)
         moving = self.motion.update(t, e, n, ep.speed_mps)
         self._last = (lat, lon, hp)
@@ -175,8 +176,8 @@ class PositionStats:
                 self._new_site()
                 ap = self._anchor_p
                 if ap is None:
-                    self.anchor = LocalFrame(lat, lon, hp)
-                    ap = self._anchor_p = Projector(self.anchor, self._ecef)
+                    ap = self._anchor_p = self._ecef.projector(lat, lon, hp)
+                    self.anchor = ap.frame
                 e, n, u = ap.enu(lat, lon, hp)
                 self._last = (lat, lon, hp)
         self._fixed_now = True

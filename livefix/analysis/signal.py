@@ -43,6 +43,9 @@ EVAL_S = 0.95  # session sums and interference use epochs at least this far apar
 # one-per-second sampling above)
 SECTOR_AZ, SECTOR_EL, SECTOR_MIN_N = 30, 15, 60
 _SIN = [math.sin(math.radians(e)) for e in range(91)]
+_BAND = [min(e // 10, 8) for e in range(91)]  # 10-degree band of a whole-degree elevation (90 joins 80-90)
+_CELL_EL = [min(e, 89) // SECTOR_EL for e in range(91)]  # sector row of a whole-degree elevation
+_NO_SYSTEM = object()  # matches no system letter
 
 
 def _sin(el: int) -> float:
@@ -104,19 +107,23 @@ class SignalStats:
 
     def _accumulate(self) -> None:
         mask = self.config.elev_mask_deg
-        cs, bands, by_sys, sin, cells = self.cs, self.bands, self.by_sys, _SIN, self.cells
+        cs, bands, by_sys, sin, cells, band = self.cs, self.bands, self.by_sys, _SIN, self.cells, _BAND
+        by_sys_get, cells_get, cell_el, last = by_sys.get, cells.get, _CELL_EL, _NO_SYSTEM
         n0, sx, sxx, sy, sxy = cs  # running sums in locals, the same additions in the same order
         try:  # finally: a bad satellite leaves the sums as far as they got, as in-place adds did
             for s in self.cur:
                 c = s.cn0 or 0
-                acc = by_sys.get(s.system)
-                if acc is None:
-                    acc = by_sys[s.system] = [0.0, 0]
+                system = s.system
+                if system != last:  # the sky is sorted by system: look the sums up once per run
+                    acc = by_sys_get(system)
+                    if acc is None:
+                        acc = by_sys[system] = [0.0, 0]
+                    last = system
                 acc[0] += c
                 acc[1] += 1
                 el = s.elev
                 if el is not None and 0 <= el <= 90:
-                    b = bands[el // 10 if el < 90 else 8]
+                    b = bands[band[el]]
                     b[0] += c
                     b[1] += 1
                     if el >= mask:
@@ -128,8 +135,8 @@ class SignalStats:
                         sxy += x * c
                         az = s.azim
                         if az is not None:
-                            key = (int(az % 360) // SECTOR_AZ, min(el, 89) // SECTOR_EL)
-                            cell = cells.get(key)
+                            key = (int(az % 360) // SECTOR_AZ, cell_el[el])
+                            cell = cells_get(key)
                             if cell is None:
                                 cell = cells[key] = [0, 0.0, 0.0]
                             cell[0] += 1
@@ -149,7 +156,7 @@ class SignalStats:
         drops: list[float] = []  # every satellite with a baseline; lost ones count as dropped
         measured: list[float] = []  # those still tracked
         seen = set()
-        seen_add, base_get, drop, meas = seen.add, base.get, drops.append, measured.append
+        seen_add, base_get, drop, meas, min_n = seen.add, base.get, drops.append, measured.append, BASE_MIN_N
         for s in ep.sats:
             k = (s.system, s.prn, s.signal)  # SatObs.key
             seen_add(k)
@@ -159,7 +166,7 @@ class SignalStats:
                 c = None
             if b is not None:
                 bn = b[1]
-                if bn >= BASE_MIN_N:
+                if bn >= min_n:
                     if c is not None:
                         d = b[0] - c
                         meas(d)
@@ -168,8 +175,8 @@ class SignalStats:
                         drop(max(thr, b[0] - LOST_CN0))
                 if c is None:
                     continue
-                if not frozen or bn < BASE_MIN_N:
-                    if bn >= BASE_MIN_N:  # min(1, max(0, dt) / tau) without the builtin calls (hot)
+                if not frozen or bn < min_n:
+                    if bn >= min_n:  # min(1, max(0, dt) / tau) without the builtin calls (hot)
                         a = t - b[2]
                         a = (a if a > 0.0 else 0.0) / BASE_TAU_S
                         if a > 1.0:

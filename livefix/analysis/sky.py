@@ -19,6 +19,7 @@ bounded by MAX_SEEN keys (a few hundred satellites exist in all constellations t
 from __future__ import annotations
 
 import math
+from operator import attrgetter, countOf, itemgetter
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
@@ -34,6 +35,12 @@ BLOCKED_SHARE = 0.5  # untracked share that makes a cell blocked
 MIN_TRACKED = 4
 CLEAR_SHARE = 0.9  # tracked share that makes a cell clear for clear_above_deg
 MAX_SEEN = 512  # (system, prn) keys kept for `seen`; beyond that new ones are only counted
+_KEY = attrgetter("system", "prn")  # SatObs -> (system, prn)
+_C = itemgetter(2)
+# grid index parts by whole degree: row start of an elevation (the top row takes 90) and column of
+# an azimuth, i.e. min(el // EL_STEP, N_EL - 1) * N_AZ and az // AZ_STEP as tables
+_ROW = [min(el // EL_STEP, N_EL - 1) * N_AZ for el in range(91)]
+_COL = [az // AZ_STEP for az in range(360)]
 
 
 class SkyMap:
@@ -54,8 +61,10 @@ class SkyMap:
     def _count_seen(self, sats: tuple) -> None:
         self._seen_of = sats
         seen = self.seen
-        for s in sats:
-            k = (s.system, s.prn)
+        keys = list(map(_KEY, sats))
+        if seen.issuperset(keys):  # the usual case: nobody new (a C-level test)
+            return
+        for k in keys:
             if k not in seen:
                 if len(seen) < MAX_SEEN:
                     seen.add(k)
@@ -82,16 +91,11 @@ class SkyMap:
             old = get(k)
             if old is None or c > old[2]:
                 per[k] = (el, az, c)
-        tracked = 0
-        for v in per.values():
-            if v[2]:
-                tracked += 1
-        if tracked < MIN_TRACKED:
+        if len(per) - countOf(map(_C, per.values()), 0) < MIN_TRACKED:  # tracked: C/N0 not 0
             return
-        tr, un, cn = self.tracked, self.untracked, self.cn0
+        tr, un, cn, row, col = self.tracked, self.untracked, self.cn0, _ROW, _COL
         for el, az, c in per.values():
-            r = el // EL_STEP
-            i = (N_EL - 1 if r > N_EL - 1 else r) * N_AZ + (int(az) % 360) // AZ_STEP  # min(r, top)
+            i = row[el] + col[int(az) % 360]
             if c:
                 tr[i] += 1
                 cn[i] += c

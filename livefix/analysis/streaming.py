@@ -7,8 +7,9 @@ amortised per sample; the heavier maths is left to the callers' snapshot().
 from __future__ import annotations
 
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Callable, Iterable, Sequence
 from math import isfinite, log
+from typing import Any
 
 import numpy as np
 
@@ -28,11 +29,27 @@ def num(x: float | None, nd: int = 4) -> float | None:
 
 def valid_fix(ep: Epoch) -> bool:
     """A fix whose coordinates can be used: one NaN would poison every running sum for good.
-    A pure function (no memo: the test costs about what a lookup would)."""
+    A pure function; `fix_memo` shares one answer per epoch between the stages that ask."""
     lat, lon, h = ep.lat, ep.lon, ep.h
-    return (ep.quality > 0 and lat is not None and lon is not None and math.isfinite(lat)
-            and math.isfinite(lon) and -90.0 <= lat <= 90.0 and -180.0 <= lon <= 360.0
-            and (h is None or (math.isfinite(h) and abs(h) < 1e7)))
+    return (ep.quality > 0 and lat is not None and lon is not None and isfinite(lat)
+            and isfinite(lon) and -90.0 <= lat <= 90.0 and -180.0 <= lon <= 360.0
+            and (h is None or (isfinite(h) and abs(h) < 1e7)))
+
+
+def fix_memo() -> Callable[[Epoch], bool]:
+    """valid_fix with the latest epoch's answer kept (keyed on the epoch's identity, holding it so
+    its id cannot be reused): the fix, position and median statistics of one Analyzer ask about
+    every epoch, and a closure's lookup costs about a fifth of the test."""
+    last: list[Any] = [None, False]
+
+    def fixed(ep: Epoch) -> bool:
+        if ep is last[0]:
+            return last[1]  # type: ignore[no-any-return]
+        ok = valid_fix(ep)
+        last[0], last[1] = ep, ok
+        return ok
+
+    return fixed
 
 
 class Timeline:
@@ -49,7 +66,7 @@ class Timeline:
     must not be counted twice; the timeline never goes back.
     """
 
-    __slots__ = ("t", "_utc", "_utc_t", "_mono", "reset", "abs_time")
+    __slots__ = ("t", "_utc", "_utc_t", "_mono", "reset", "abs_time", "_ep")
 
     def __init__(self) -> None:
         self.t: float | None = None
@@ -58,6 +75,15 @@ class Timeline:
         self._mono: float | None = None
         self.reset = False
         self.abs_time: float | None = None  # POSIX time for ISO labels (utc, else host wall)
+        self._ep: Epoch | None = None  # the epoch stepped last (held: its id cannot be reused)
+
+    def follow(self, ep: Epoch) -> float:
+        """step(ep), unless this very epoch was the one stepped last: a timeline shared by two stages
+        is stepped by the first, and the second reads the same time (stepping the same epoch again
+        would leave t and abs_time as they are and only clear `reset`, which followers do not read)."""
+        if ep is self._ep:
+            return self.t  # type: ignore[return-value]  # set by that step
+        return self.step(ep)
 
     def step(self, ep: Epoch) -> float:
         self.reset = False
@@ -69,7 +95,9 @@ class Timeline:
             if utc is not None and self._utc is not None:
                 d = utc - self._utc
                 if 0.0 <= d < 86400.0:
-                    dt = max(0.0, self._utc_t + d - t)
+                    dt = self._utc_t + d - t
+                    if not dt > 0.0:  # max(0.0, dt) without the builtin call (NaN -> 0.0 as max gives)
+                        dt = 0.0
                 elif d < -jump_limit(1.0):  # far back: a restart; a second or so is clock jitter
                     self.reset = True
             if dt is None:
@@ -82,6 +110,7 @@ class Timeline:
         else:
             self.abs_time = ep.wall
         self._mono = mono
+        self._ep = ep
         return t
 
     def at_mono(self, mono: float) -> float | None:
@@ -111,6 +140,14 @@ class Ring:
         p = self._pend
         p.append(row)
         self.total += 1
+        if len(p) >= FLUSH:
+            self._flush()
+
+    def extend(self, rows: Sequence[Sequence[float]]) -> None:
+        """push(row) for each row, in order."""
+        p = self._pend
+        p.extend(rows)
+        self.total += len(rows)
         if len(p) >= FLUSH:
             self._flush()
 
@@ -201,16 +238,22 @@ class LogHistogram:
         self.n += count
 
     def add(self, x: float | None) -> None:
-        try:  # the common case in one go; the rare values fail inside log() or round()
-            b = round(log(x) / _LH_STEP)  # type: ignore[arg-type]
-        except (ValueError, TypeError, OverflowError):  # 0, negative, NaN, inf, None
-            if x == 0:
-                self.zeros += 1
-                self.n += 1
-            return
-        bins = self.bins
-        bins[b] = bins.get(b, 0) + 1
-        self.n += 1
+        self.add_many((x,))
+
+    def add_many(self, xs: Iterable[float | None]) -> None:
+        """add(x) for each x (counts only: the order does not matter)."""
+        bins, step = self.bins, _LH_STEP
+        get = bins.get
+        for x in xs:
+            try:  # the common case in one go; the rare values fail inside log() or round()
+                b = round(log(x) / step)  # type: ignore[arg-type]
+            except (ValueError, TypeError, OverflowError):  # 0, negative, NaN, inf, None
+                if x == 0:
+                    self.zeros += 1
+                    self.n += 1
+                continue
+            bins[b] = get(b, 0) + 1
+            self.n += 1
 
     def quantile(self, p: float) -> float | None:
         """The p-quantile (0..1) as the centre of its bin; None before any value."""
@@ -253,13 +296,27 @@ class PairHistory:
 
     def add3(self, x: float, y: float, z: float) -> None:
         """add((x, y, z)) for a three-column history, without the per-row list building."""
-        acc = self._acc
-        acc[0] += x
-        acc[1] += y
-        acc[2] += z
-        self._k += 1
-        if self._k >= self.factor:
-            self._complete()
+        self.add3_rows(((x, y, z),), 0)
+
+    def add3_rows(self, rows: Iterable[Sequence[float]], i: int) -> None:
+        """add3(row[i], row[i + 1], row[i + 2]) for each row in order, the sums kept in locals and
+        _complete spelt out for three columns (at factor 1 every row completes one)."""
+        a0, a1, a2 = self._acc
+        k, f, p, cap = self._k, self.factor, self._pend, self.cap
+        i1, i2 = i + 1, i + 2
+        for row in rows:
+            a0 += row[i]
+            a1 += row[i1]
+            a2 += row[i2]
+            k += 1
+            if k >= f:
+                p.append((a0 / k, a1 / k, a2 / k))
+                a0 = a1 = a2 = 0.0
+                k = 0
+                if len(p) >= FLUSH or self._n + len(p) == cap:
+                    self._flush()  # may double the factor
+                    f = self.factor
+        self._acc, self._k = [a0, a1, a2], k
 
     def _complete(self) -> None:
         """The accumulated raw samples (_k >= factor of them) make one row."""

@@ -7,6 +7,7 @@ epochs. All members are bounded; see the sizes below.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from typing import Any
 
 import numpy as np
@@ -18,6 +19,7 @@ RING_CAP = 8192  # recent epochs kept exactly (window percentiles, honesty, samp
 ALLAN_CAP = 4096  # decimated samples for Allan deviation
 BLOCK_CAP = 2048  # decimated 1-minute block means for the session drift
 WARMUP = 10  # samples before radii about the running mean enter the streaming histogram
+BATCH = 64  # rows waiting before the accumulators take them (bounded; readers settle them first)
 # ring columns
 T, E, N, U, SLAT, SLON, SALT, HDOP = range(8)
 
@@ -35,20 +37,40 @@ class Moments3:
         self.c = [0.0] * 6  # ee, en, eu, nn, nu, uu (eu, nu: cross terms are not kept: 0)
 
     def add(self, e: float, n: float, u: float) -> None:
-        self.n += 1
-        m, k = self.m, self.n
-        d0, d1 = e - m[0], n - m[1]
-        m[0] += d0 / k
-        m[1] += d1 / k
-        c = self.c
-        c[0] += d0 * (e - m[0])
-        c[1] += d0 * (n - m[1])
-        c[3] += d1 * (n - m[1])
-        if u == u:
-            self.nu += 1
-            d2 = u - m[2]
-            m[2] += d2 / self.nu
-            c[5] += d2 * (u - m[2])
+        self.add_rows(((0.0, e, n, u),))
+
+    def add_rows(self, rows: Sequence[Sequence[float]], warmup: float = math.inf) -> tuple[list[float], list[float]]:
+        """add(e, n, u) for each row (t, e, n, u, ...) in order, the running sums kept in locals.
+        Returns the horizontal and vertical distances of each row from the mean before it, for the
+        rows after `warmup` rows (vertical: after `warmup` heights; NaN for a row without a height)."""
+        k, nu, m, c = self.n, self.nu, self.m, self.c
+        m0, m1, m2 = m
+        c0, c1, c3, c5 = c[0], c[1], c[3], c[5]
+        rh: list[float] = []
+        rv: list[float] = []
+        hypot = math.hypot
+        for row in rows:
+            e, n, u = row[1], row[2], row[3]
+            if k >= warmup:
+                rh.append(hypot(e - m0, n - m1))
+                if nu >= warmup:
+                    rv.append(abs(u - m2))
+            k += 1
+            d0, d1 = e - m0, n - m1
+            m0 += d0 / k
+            m1 += d1 / k
+            c0 += d0 * (e - m0)
+            c1 += d0 * (n - m1)
+            c3 += d1 * (n - m1)
+            if u == u:
+                nu += 1
+                d2 = u - m2
+                m2 += d2 / nu
+                c5 += d2 * (u - m2)
+        self.n, self.nu = k, nu
+        m[0], m[1], m[2] = m0, m1, m2
+        c[0], c[1], c[3], c[5] = c0, c1, c3, c5
+        return rh, rv
 
     def mean(self) -> tuple[float, float, float]:
         """(e, n, u); u is NaN when no epoch had a height."""
@@ -63,32 +85,74 @@ class Moments3:
 
 
 class Track:
-    """Scatter, drift and Allan history of one fix type, in the session's anchor E/N/U frame."""
+    """Scatter, drift and Allan history of one fix type, in the session's anchor E/N/U frame.
+
+    Rows wait in a short list and go into every accumulator in one pass per BATCH rows (a call per
+    accumulator per row is slow); each accumulator still takes them one by one in arrival order, so
+    every sum is the same. Every reader (the members below are properties) settles them first."""
 
     def __init__(self) -> None:
-        self.mom = Moments3()
-        self.hist_r = LogHistogram()
-        self.hist_v = LogHistogram()
-        self.ring = Ring(RING_CAP, 8)
-        self.blocks = drift.BlockMeans(PairHistory(BLOCK_CAP, 4))
-        self.allan = PairHistory(ALLAN_CAP, 3)
+        self._mom = Moments3()
+        self._hist_r = LogHistogram()
+        self._hist_v = LogHistogram()
+        self._ring = Ring(RING_CAP, 8)
+        self._blocks = drift.BlockMeans(PairHistory(BLOCK_CAP, 4))
+        self._allan = PairHistory(ALLAN_CAP, 3)
+        self._pend: list[tuple[float, ...]] = []
 
     def add(self, t: float, e: float, n: float, u: float, slat: float, slon: float, salt: float,
             hdop: float) -> None:
-        m = self.mom
-        if m.n >= WARMUP:  # radius about the running mean: close to the final mean once settled
-            mm = m.m
-            self.hist_r.add(math.hypot(e - mm[0], n - mm[1]))
-            if m.nu >= WARMUP:
-                self.hist_v.add(abs(u - mm[2]))  # NaN (no height) is skipped by the histogram
-        m.add(e, n, u)
-        self.ring.push((t, e, n, u, slat, slon, salt, hdop))
-        self.blocks.add(t, e, n, u)
-        self.allan.add3(e, n, u)
+        p = self._pend
+        p.append((t, e, n, u, slat, slon, salt, hdop))
+        if len(p) >= BATCH:
+            self._settle()
+
+    def _settle(self) -> None:
+        rows = self._pend
+        if not rows:
+            return
+        self._pend = []  # the ring keeps the row tuples (never changed)
+        # radius about the running mean: close to the final mean once settled (after WARMUP rows)
+        rh, rv = self._mom.add_rows(rows, WARMUP)
+        self._hist_r.add_many(rh)
+        self._hist_v.add_many(rv)  # NaN (no height) is skipped by the histogram
+        self._blocks.add_rows(rows)
+        self._allan.add3_rows(rows, E)
+        self._ring.extend(rows)
 
     @property
     def n(self) -> int:
-        return self.mom.n
+        return self._mom.n + len(self._pend)
+
+    @property
+    def mom(self) -> Moments3:
+        self._settle()
+        return self._mom
+
+    @property
+    def hist_r(self) -> LogHistogram:
+        self._settle()
+        return self._hist_r
+
+    @property
+    def hist_v(self) -> LogHistogram:
+        self._settle()
+        return self._hist_v
+
+    @property
+    def ring(self) -> Ring:
+        self._settle()
+        return self._ring
+
+    @property
+    def blocks(self) -> drift.BlockMeans:
+        self._settle()
+        return self._blocks
+
+    @property
+    def allan(self) -> PairHistory:
+        self._settle()
+        return self._allan
 
     def session(self) -> dict[str, Any]:
         """Whole-session figures: exact while the session still fits the ring, else streaming."""
