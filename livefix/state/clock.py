@@ -18,6 +18,7 @@ from livefix.dates import CONFIRM_EPOCHS, agrees, date_problem, jump_limit
 from livefix.timefmt import date_known, iso
 
 _DAY = 86400.0
+_MEMO_MAX = 64  # remembered date verdicts; a stream has a handful of distinct dates
 _UTC = _dt.UTC
 
 Note = tuple[str, str, dict]
@@ -49,11 +50,38 @@ class UtcClock:
         self._last_mono: float | None = None
         self._jump: list[float] | None = None  # [utc, chain utc, epochs run on from it, step]
         self._steps: deque[float] = deque(maxlen=15)
+        # Per-epoch answers that repeat epoch after epoch (the same dates, the same steps), kept
+        # here so that a 10 Hz stream does not recompute them: bounded, owned by this clock.
+        self._nominal: float | None = None  # median of _steps, None after a change
+        self._problems: dict[tuple, str | None] = {}  # (date, ref, prev_bad) -> date_problem
+        self._midnight: tuple[_dt.date | None, float] = (None, 0.0)  # (date, _day_start(date))
 
     @property
     def nominal_s(self) -> float:
         """Typical epoch interval, median of recent forward steps (1 s until known)."""
-        return median(self._steps) if self._steps else 1.0
+        n = self._nominal
+        if n is None:
+            n = self._nominal = median(self._steps) if self._steps else 1.0
+        return n
+
+    def _problem(self, d: _dt.date, ref: _dt.date | None, bad: _dt.date | None) -> str | None:
+        """date_problem(d, ref, bad), remembered (a pure function of three dates)."""
+        key = (d, ref, bad)
+        memo = self._problems
+        if key in memo:
+            return memo[key]
+        if len(memo) >= _MEMO_MAX:
+            memo.clear()
+        why = memo[key] = date_problem(d, ref, bad)
+        return why
+
+    def _start_of(self, d: _dt.date) -> float:
+        """_day_start(d), remembered for the last date."""
+        last, start = self._midnight
+        if d != last:
+            start = _day_start(d)
+            self._midnight = (d, start)
+        return start
 
     def resolve(self, tod: float, given: _dt.date | None, wall: float, mono: float | None = None
                 ) -> tuple[float | None, list[Note]]:
@@ -63,8 +91,8 @@ class UtcClock:
         change: Note | None = None
         if given is not None:
             # a rolled-over date shows against the host's date or the receiver's own last valid one
-            why = (date_problem(given, host, self._bad) if host is not None else None) or \
-                date_problem(given, self._given, self._bad)
+            why = (self._problem(given, host, self._bad) if host is not None else None) or \
+                self._problem(given, self._given, self._bad)
             if why is not None:
                 if not self._date_bad:
                     notes.append(("receiver_date_invalid", f"receiver date {given} not valid: {why}",
@@ -92,7 +120,7 @@ class UtcClock:
             self.date_known = host is not None
             return None, notes
         self.date_known = self._given is not None or host is not None
-        utc = _day_start(self.date) + tod
+        utc = self._start_of(self.date) + tod
         if not self._gate(utc, mono, notes):
             self.date, self._last_tod, self._given = keep  # a held or faulty time moves no date
             return None, notes
@@ -134,6 +162,7 @@ class UtcClock:
                 notes.append(("time_rollback", f"receiver time went back {-dt:.3f} s", {"step_s": dt}))
             elif 0 < dt <= limit:
                 self._steps.append(dt)
+                self._nominal = None
             return self._accept(utc, mono)
         self._drop_jump(notes)  # neither clock: a held jump was a fault, this one is held now
         self._jump = [utc, utc, 0, dt]
