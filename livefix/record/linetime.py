@@ -157,9 +157,10 @@ def _rmc_date(d: bytes) -> _dt.date | None:
     return None
 
 
-def line_time(piece: bytes) -> LineTime | None:
+def line_time(piece: bytes, memo: TimeReader | None = None) -> LineTime | None:
     """The time of a GGA/RMC/GNS/GLL/ZDA sentence starting at piece[0] == '$', None for any other
-    line and for a sentence whose checksum is missing or wrong."""
+    line and for a sentence whose checksum is missing or wrong. `memo` keeps the last time field
+    and RMC date parsed (TimeReader), which changes nothing but the cost."""
     if piece[:1] != b"$" or len(piece) < 10:
         return None
     kind = piece[3:6]
@@ -179,14 +180,17 @@ def line_time(piece: bytes) -> LineTime | None:
     i = FIX_TIME_FIELD[kind]
     if len(f) <= i:
         return None
-    date = _rmc_date(f[RMC_DATE_FIELD]) if kind == b"RMC" and len(f) > RMC_DATE_FIELD else None
-    return LineTime(f[0], True, tod_of(f[i]), date)
+    tod = tod_of(f[i]) if memo is None else memo.tod(f[i])
+    date = None
+    if kind == b"RMC" and len(f) > RMC_DATE_FIELD:
+        date = _rmc_date(f[RMC_DATE_FIELD]) if memo is None else memo.rmc_date(f[RMC_DATE_FIELD])
+    return LineTime(f[0], True, tod, date)
 
 
 class TimeReader:
-    """line_time of fix sentences with the last time field and RMC date kept parsed: the fix
-    sentences of one epoch share them, so a 10 Hz log parses each once, not two or three times.
-    One per stamper; one entry each, so it stays bounded."""
+    """line_time with the last time field and RMC date kept parsed: the fix sentences of one epoch
+    share them, so a 10 Hz log parses each once, not two or three times. One per stamper; one
+    entry each, so it stays bounded."""
 
     __slots__ = ("_tf", "_tod", "_df", "_date")
 
@@ -198,20 +202,16 @@ class TimeReader:
 
     def read(self, piece: bytes) -> LineTime | None:
         """The same value as line_time(piece)."""
-        kind = piece[3:6]
-        if kind not in FIX_TIME_FIELD or piece[:1] != b"$" or len(piece) < 10:
-            return line_time(piece)  # ZDA (rarer) and everything line_time refuses
-        f = _fields(piece)
-        if f is None:
-            return None
-        i = FIX_TIME_FIELD[kind]
-        if len(f) <= i:
-            return None
-        if f[i] != self._tf:
-            self._tf, self._tod = f[i], tod_of(f[i])
-        date = None
-        if kind == b"RMC" and len(f) > RMC_DATE_FIELD:
-            if f[RMC_DATE_FIELD] != self._df:
-                self._df, self._date = f[RMC_DATE_FIELD], _rmc_date(f[RMC_DATE_FIELD])
-            date = self._date
-        return LineTime(f[0], True, self._tod, date)
+        return line_time(piece, self)
+
+    def tod(self, field: bytes) -> float | None:
+        """tod_of(field), kept for a repeated field."""
+        if field != self._tf:
+            self._tf, self._tod = field, tod_of(field)
+        return self._tod
+
+    def rmc_date(self, field: bytes) -> _dt.date | None:
+        """_rmc_date(field), kept for a repeated field."""
+        if field != self._df:
+            self._df, self._date = field, _rmc_date(field)
+        return self._date
