@@ -6,7 +6,7 @@ STAMP  := $(VENV)/.installed
 
 .PHONY: demo test lint bench mutants fuzz recordings docs clean
 
-$(STAMP): pyproject.toml setup.py livefix/_native.c  # the C core is rebuilt in place when its source changes
+$(STAMP): pyproject.toml setup.py livefix/_native.c livefix/state/_gsvcore.c livefix/analysis/_sigcore.c  # C cores rebuilt in place when its source changes
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install -q --upgrade pip
 	$(PY) -m pip install -q -e '.[test]'
@@ -44,4 +44,4 @@ docs: $(STAMP)  # the metric table, generated from livefix/analysis/catalogue.py
 	$(PY) -m livefix.analysis.catalogue > docs/metrics.md
 
 clean:
-	rm -rf $(VENV) build *.egg-info .pytest_cache .ruff_cache livefix/_native*.so
+	rm -rf $(VENV) build *.egg-info .pytest_cache .ruff_cache livefix/_native*.so livefix/*/_*core*.so

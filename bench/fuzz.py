@@ -6,9 +6,14 @@ Deterministic for a seed. Usage: python bench/fuzz.py --inputs 100000 [--seed 1]
 
 With --native-diff the inputs (plus byte-level mutations that keep a valid checksum, embedded NULs,
 overlong lines and multi-line blocks) go instead through the C core and the pure-Python path side by
-side (Framer and Decoder with native=True / False) and every disagreement is counted; `make fuzz`
-runs that under AddressSanitizer and UndefinedBehaviorSanitizer (bench/fuzz_asan.sh).
-tests/decode/test_native_identity.py runs a sample of the same inputs.
+side (Framer and Decoder with native=True / False) and every disagreement is counted; then
+--gsv-adds (default --inputs) random GSV parts (gsv_parts) go through the C GSV set assembler and
+the reference (livefix.state.gsv.make_assembler(native=True / False)), compared after every add();
+then --sig-epochs (default --inputs / 5) random epochs (sig_epochs) go through SignalStats with its
+C satellite loops and with the Python ones (native=True / False), state compared after every epoch.
+`make fuzz` runs them under AddressSanitizer and UndefinedBehaviorSanitizer (--asan).
+tests/decode/test_native_identity.py, tests/state/test_gsv_native.py and
+tests/analysis/test_signal_native.py run samples of the same inputs.
 """
 
 from __future__ import annotations
@@ -21,8 +26,10 @@ import sys
 import time
 import traceback
 from pathlib import Path
+from types import ModuleType
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+sys.path.insert(0, str(Path(__file__).resolve().parent))  # fuzz_twins
 
 from livefix.pipeline import Pipeline  # noqa: E402
 from livefix.sources.base import Chunk, Link, LinkEvent, Marker  # noqa: E402
@@ -191,44 +198,91 @@ def native_diff(inputs: int, seed: int = 1, base: list[str] | None = None) -> tu
     return inputs, bad, examples
 
 
-def load_core(path: str) -> None:
-    """Use the C core built at `path` (the sanitizer build) as livefix._native in this process."""
+from fuzz_twins import gsv_diff, gsv_parts, sig_diff, sig_epochs, sig_pair, sig_state  # noqa: E402, F401  (tests read them here)
+
+
+def _load_ext(name: str, path: str) -> ModuleType:
+    """The extension module built at `path`, imported as `name` (and registered in sys.modules)."""
     import importlib.util
 
-    spec = importlib.util.spec_from_file_location("livefix._native", path)
+    spec = importlib.util.spec_from_file_location(name, path)
     assert spec is not None and spec.loader is not None
     mod = importlib.util.module_from_spec(spec)
     spec.loader.exec_module(mod)
-    sys.modules["livefix._native"] = mod
+    sys.modules[name] = mod
+    return mod
+
+
+def load_core(path: str) -> None:
+    """Use the C core built at `path` (the sanitizer build) as livefix._native in this process."""
+    mod = _load_ext("livefix._native", path)
     import livefix
+    import livefix.framing as framing  # imported above (Pipeline): its Framer must use this build too
 
     livefix._native = mod  # type: ignore[attr-defined]
+    framing._CORE = mod
+    if framing._NATIVE is not None:
+        framing._NATIVE = mod
 
 
-def asan_run(inputs: int, seed: int) -> int:
-    """Build the C core with AddressSanitizer + UndefinedBehaviorSanitizer into a temporary folder
-    and run the native/pure differential under it. Leaks count only when a stack names _native.c
-    (the interpreter itself keeps memory to the end of the process)."""
+def load_gsv_core(path: str) -> None:
+    """Use the GSV assembler built at `path` (the sanitizer build) as livefix.state._gsvcore."""
+    import livefix.state
+    from livefix.state import gsv  # imported above (Pipeline): make_assembler must use this build
+
+    mod = _load_ext("livefix.state._gsvcore", path)
+    livefix.state._gsvcore = mod  # type: ignore[attr-defined]
+    gsv._CORE = mod
+
+
+C_FILES = ("_native.c", "_gsvcore.c", "_sigcore.c")
+
+
+def load_sig_core(path: str) -> None:
+    """Use the SignalStats loops built at `path` (the sanitizer build) as livefix.analysis._sigcore."""
+    import livefix.analysis
+    from livefix.analysis import signal, signal_native
+
+    mod = _load_ext("livefix.analysis._sigcore", path)
+    livefix.analysis._sigcore = mod  # type: ignore[attr-defined]
+    if not signal_native.configure(mod, signal._CORE_ARGS):
+        raise RuntimeError(f"{path}: not a usable build of livefix.analysis._sigcore")
+    signal._CORE = mod
+
+
+def asan_run(inputs: int, seed: int, gsv_adds: int, sig_n: int) -> int:
+    """Build the C core, the GSV assembler and the SignalStats loops with AddressSanitizer +
+    UndefinedBehaviorSanitizer into a temporary folder and run the native/pure differentials under
+    them. Leaks count only when a stack names one of the C files (the interpreter keeps memory to
+    the end of the process)."""
     import os
     import re
     import sysconfig
     import tempfile
 
-    src = Path(__file__).resolve().parents[1] / "livefix" / "_native.c"
+    root = Path(__file__).resolve().parents[1] / "livefix"
     cc = os.environ.get("CC", "gcc")
     libasan = subprocess.run([cc, "-print-file-name=libasan.so"], capture_output=True, text=True).stdout.strip()
     with tempfile.TemporaryDirectory(prefix="livefix-asan-") as tmp:
-        so = Path(tmp) / ("_native" + (sysconfig.get_config_var("EXT_SUFFIX") or ".so"))
-        cmd = [cc, "-shared", "-fPIC", "-O1", "-g", "-fsanitize=address,undefined", "-fno-omit-frame-pointer",
-               "-ffp-contract=off", "-Wall", "-I", sysconfig.get_paths()["include"], str(src), "-o", str(so)]
-        subprocess.run(cmd, check=True)
-        def child(n: int, options: str) -> tuple[subprocess.CompletedProcess, float]:
+        built = []
+        for src in (root / "_native.c", root / "state" / "_gsvcore.c", root / "analysis" / "_sigcore.c"):
+            so = Path(tmp) / (src.stem + (sysconfig.get_config_var("EXT_SUFFIX") or ".so"))
+            cmd = [cc, "-shared", "-fPIC", "-O1", "-g", "-fsanitize=address,undefined", "-fno-omit-frame-pointer",
+                   "-ffp-contract=off", "-Wall", "-I", sysconfig.get_paths()["include"], str(src), "-o", str(so)]
+            subprocess.run(cmd, check=True)
+            built.append(str(so))
+
+        def child(n: int, options: str, adds: int | None = None,
+                  sig: int | None = None) -> tuple[subprocess.CompletedProcess, float]:
             env = dict(os.environ, LD_PRELOAD=libasan, PYTHONMALLOC="malloc",
                        ASAN_OPTIONS="detect_leaks=1:exitcode=23:halt_on_error=1" + options,
                        UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1")
             t0 = time.perf_counter()
             r = subprocess.run([sys.executable, __file__, "--native-diff", "--inputs", str(n), "--seed",
-                                str(seed), "--core", str(so)], env=env, capture_output=True, text=True)
+                                str(seed), "--core", built[0], "--gsv-core", built[1], "--sig-core", built[2],
+                                "--gsv-adds", str(n if adds is None else adds),
+                                "--sig-epochs", str(min(n, 2000) if sig is None else sig)],
+                               env=env, capture_output=True, text=True)
             return r, time.perf_counter() - t0
 
         # The interpreter keeps some memory to the end of the process, so a leak is judged two ways:
@@ -236,7 +290,7 @@ def asan_run(inputs: int, seed: int) -> int:
         # of the whole run against a 100-input run (a per-line leak grows with the inputs).
         base, _ = child(100, "")
         traced, _ = child(min(inputs, 2000), ":fast_unwind_on_malloc=0:malloc_context_size=12")
-        r, dt = child(inputs, "")
+        r, dt = child(inputs, "", gsv_adds, sig_n)
     sys.stdout.write(r.stdout)
 
     def allocs(err: str) -> int:
@@ -244,7 +298,7 @@ def asan_run(inputs: int, seed: int) -> int:
         return int(m.group(1)) if m else 0
 
     named = [b for b in re.split(r"\n(?=(?:Direct|Indirect) leak of)", traced.stderr)
-             if re.match(r"(Direct|Indirect) leak of", b) and "_native.c" in b]
+             if re.match(r"(Direct|Indirect) leak of", b) and any(f in b for f in C_FILES)]
     grown = allocs(r.stderr) - allocs(base.stderr)
     leaks = len(named) + (grown > 50)
     errs = base.stderr + traced.stderr + r.stderr
@@ -258,11 +312,21 @@ def asan_run(inputs: int, seed: int) -> int:
     ok = exits <= {0, 23} and not (asan or ubsan or leaks)  # 23: the leak report of the interpreter's own
     print(f"RESULT | native fuzz under ASan+UBSan: memory errors, UB, leaks | {asan}, {ubsan}, {leaks} "
           f"(leaked allocations {allocs(r.stderr)} vs {allocs(base.stderr)} for 100 inputs; "
-          f"{len(named)} naming _native.c) | 0, 0, 0 | {'met' if ok else 'NOT met'}")
+          f"{len(named)} naming {', '.join(C_FILES)}) | 0, 0, 0 | {'met' if ok else 'NOT met'}")
     print(f"RESULT | native fuzz under ASan+UBSan: time | {dt:.0f} s | info | met")
     if not exits <= {0, 23}:
         print(f"child exit status {sorted(exits)}", file=sys.stderr)
     return 0 if ok else 1
+
+
+def _twin_results(twin: str, unit: str, n: int, count: str, need: int, bad: int, examples: list[str],
+                  t0: float) -> None:
+    """The RESULT lines of one C twin's differential (and its first disagreements on stderr)."""
+    dt = time.perf_counter() - t0
+    for e in examples:
+        print(f"{twin} disagreement:", e, file=sys.stderr)
+    print(f"RESULT | {twin} fuzz {unit} | {count} in {dt:.0f} s | >= {need:,} | {'met' if n >= need else 'NOT met'}")
+    print(f"RESULT | {twin} fuzz disagreements | {bad} | 0 | {'met' if bad == 0 else 'NOT met'}")
 
 
 def rss_kib() -> int:
@@ -279,12 +343,22 @@ def main() -> int:
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--native-diff", action="store_true", help="compare the C core with the pure path")
     ap.add_argument("--asan", action="store_true", help="--native-diff with a sanitizer build of the core")
+    ap.add_argument("--gsv-adds", type=int, help="GSV assembler add() calls of the differential (default --inputs)")
+    ap.add_argument("--sig-epochs", type=int, help="SignalStats epochs of the differential (default --inputs / 5)")
     ap.add_argument("--core", help=argparse.SUPPRESS)  # path of the core to load (used by --asan)
+    ap.add_argument("--gsv-core", help=argparse.SUPPRESS)  # path of the GSV assembler to load (--asan)
+    ap.add_argument("--sig-core", help=argparse.SUPPRESS)  # path of the SignalStats loops to load (--asan)
     args = ap.parse_args()
+    gsv_adds = args.inputs if args.gsv_adds is None else args.gsv_adds
+    sig_n = args.inputs // 5 if args.sig_epochs is None else args.sig_epochs
     if args.asan:
-        return asan_run(args.inputs, args.seed)
+        return asan_run(args.inputs, args.seed, gsv_adds, sig_n)
     if args.core:
         load_core(args.core)
+    if args.gsv_core:
+        load_gsv_core(args.gsv_core)
+    if args.sig_core:
+        load_sig_core(args.sig_core)
     if args.native_diff:
         t0 = time.perf_counter()
         n, bad, examples = native_diff(args.inputs, args.seed)
@@ -293,7 +367,23 @@ def main() -> int:
             print("disagreement:", e, file=sys.stderr)
         print(f"RESULT | native fuzz inputs | {n:,} in {dt:.0f} s | >= 1,000,000 | {'met' if n >= 1e6 else 'NOT met'}")
         print(f"RESULT | native fuzz disagreements | {bad} | 0 | {'met' if bad == 0 else 'NOT met'}")
-        return 1 if bad else 0
+        from livefix.state import gsv
+
+        if gsv._CORE is None:
+            print("GSV assembler: livefix.state._gsvcore not built, not compared", file=sys.stderr)
+            return 1 if bad else 0
+        t0 = time.perf_counter()
+        n, gbad, examples = gsv_diff(gsv_adds, args.seed)
+        _twin_results("GSV assembler", "add() calls", n, f"{n:,}", 1_000_000, gbad, examples, t0)
+        from livefix.analysis import signal
+
+        if signal._CORE is None:
+            print("SignalStats loops: livefix.analysis._sigcore not built, not compared", file=sys.stderr)
+            return 1 if bad or gbad else 0
+        t0 = time.perf_counter()
+        n, calls, sbad, examples = sig_diff(sig_n, args.seed)
+        _twin_results("SignalStats loops", "calls", calls, f"{calls:,} ({n:,} epochs)", 300_000, sbad, examples, t0)
+        return 1 if bad or gbad or sbad else 0
     rng = random.Random(args.seed)
     base = BASE + sim_base()
     p = Pipeline(source="fuzz")

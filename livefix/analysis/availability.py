@@ -56,7 +56,8 @@ class TimeBook:
             self._credit(prev, iv)
             self._credit("none", dt - iv)
             return prev_t + iv, 0.0
-        self._credit(prev, dt)
+        time = self.time  # _credit(prev, dt) inline (dt > 0 here): once per epoch
+        time[prev] = time.get(prev, 0.0) + dt
         return t, 0.0
 
     def totals(self, iv: float) -> dict[str, float]:

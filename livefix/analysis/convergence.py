@@ -21,6 +21,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable
+from itertools import chain
 
 import numpy as np
 
@@ -101,8 +102,9 @@ class Convergence:
     def _flush(self) -> None:
         """Write the waiting head rows in one slice (a numpy row at a time is slow)."""
         p = self._pend
-        if p:
-            self.head[self._done:self._done + len(p)] = p
+        if p:  # rows through fromiter: one C pass, the same float64 values as a list assignment
+            self.head[self._done:self._done + len(p)] = np.fromiter(chain.from_iterable(p), float,
+                                                                    count=5 * len(p)).reshape(len(p), 5)
             self._done += len(p)
             p.clear()
 

@@ -38,11 +38,17 @@ def median_of(hist: dict[int, int]) -> float | None:
 
 def epoch_counts(ep: Epoch) -> dict[str, tuple[int, int, int]]:
     """(in view, tracked, used) satellites per system letter and over all systems."""
-    sats = ep.sats
-    view = {(s.system, s.prn) for s in sats}
-    tracked = {(s.system, s.prn) for s in sats if s.cn0 is not None}
-    used = {(s.system, s.prn) for s in sats if s.used}
-    used.update(ep.used_prns)
+    view: set[tuple[str, int]] = set()
+    tracked: set[tuple[str, int]] = set()
+    used = set(ep.used_prns)
+    va, ta, ua = view.add, tracked.add, used.add
+    for s in ep.sats:  # one key per satellite signal, in one pass
+        k = (s.system, s.prn)
+        va(k)
+        if s.cn0 is not None:
+            ta(k)
+        if s.used:
+            ua(k)
     rows: dict[str, list[int]] = {}
     for i, group in enumerate((view, tracked, used)):
         for system, _prn in group:

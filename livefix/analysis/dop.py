@@ -31,6 +31,8 @@ KEYS = ("gdop", "pdop", "hdop", "vdop", "tdop")
 REL_TOL = 0.20
 ABS_TOL = 0.3
 MAX_UNKNOWN_IDS = 64  # distinct unknown satellite labels listed in the snapshot
+_NO = object()  # matches no reported value
+_NO_REP = (_NO, _NO, _NO)
 
 
 def used_geometry(ep: Epoch) -> tuple[tuple[float, float, str], ...]:
@@ -76,29 +78,73 @@ class DopStats:
         self.hist_rep = {k: LogHistogram() for k in ("gdop", "pdop", "hdop", "vdop")}
         self.hist_calc = {k: LogHistogram() for k in KEYS}  # per-system receiver clocks
         self.hist_single = {k: LogHistogram() for k in KEYS}  # one receiver clock
-        self.votes = {"single": 0, "per_system": 0}  # compared epochs closer to each clock model
+        self._votes = {"single": 0, "per_system": 0}  # compared epochs closer to each clock model
         self.unknown_epochs = 0  # epochs listing satellite numbers no NMEA block fits
         self.unknown_ids: set[str] = set()
         self.current_used_listed = 0  # used satellites this epoch, with or without az/el
-        self.current_rep: dict[str, float | None] = {}
         self.current_calc: dict[str, float] | None = None
         self._single: dict[str, float] | None = None
         self.current_n = 0
-        self.compared = 0
-        self.disagreements = 0
-        self.disagreeing = False
+        self._compared = 0
+        self._disagreements = 0
         self._cache_key: tuple | None = None
         self._sats: tuple | None = None
         self._used: tuple | None = None
         self._geo: tuple = ()
-        self._rep_obj: tuple = (object(), object(), object())  # the reported floats, by identity
+        self._rep_obj: tuple = _NO_REP  # the latest reported floats, by identity
         self._rep_key: tuple | None = None
-        # Histogram bins repeat for long runs of epochs: count the run, add it when the bins change
+        # Histogram bins and the verdict repeat for long runs of epochs: each run is counted (epochs
+        # since its mark) and added when its inputs change or a reader asks, not once per epoch
         self._rep_bins: list[tuple[LogHistogram, int]] = []
         self._calc_bins: list[tuple[LogHistogram, int]] = []
-        self._rep_run = 0
-        self._calc_run = 0
+        self._n = 0  # epochs seen
+        self._rep_mark = self._calc_mark = self._v_mark = 0  # _n when each run began
         self._verdict: tuple[bool, bool, int] | None = None  # (compared, disagree, vote) for the inputs
+
+    # -- counters of the compared epochs, settled on reading -----------------------------------
+    @property
+    def votes(self) -> dict[str, int]:
+        self._flush_verdict()
+        return self._votes
+
+    @property
+    def compared(self) -> int:
+        self._flush_verdict()
+        return self._compared
+
+    @property
+    def disagreements(self) -> int:
+        self._flush_verdict()
+        return self._disagreements
+
+    @property
+    def disagreeing(self) -> bool:
+        """Whether the latest epoch disagreed (its verdict)."""
+        v = self._verdict
+        return v is not None and v[1]
+
+    @property
+    def current_rep(self) -> dict[str, float | None]:
+        """The latest epoch's reported DOPs ({} before any epoch); GSA carries no GDOP."""
+        pdop, hdop, vdop = self._rep_obj
+        if pdop is _NO:
+            return {}
+        return {"pdop": pdop, "hdop": hdop, "vdop": vdop, "gdop": None}
+
+    def _flush_verdict(self) -> None:
+        """Count the epochs judged by the current verdict since its mark (before it changes)."""
+        k = self._n - self._v_mark
+        if not k:
+            return
+        self._v_mark = self._n
+        v = self._verdict
+        assert v is not None  # every epoch leaves one
+        if v[0]:
+            self._compared += k
+            if v[1]:
+                self._disagreements += k
+            if v[2]:
+                self._votes["single" if v[2] > 0 else "per_system"] += k
 
     def on_epoch(self, ep: Epoch) -> None:
         sats, used = ep.sats, ep.used_prns
@@ -111,33 +157,24 @@ class DopStats:
         pdop, hdop, vdop = ep.pdop, ep.hdop, ep.vdop
         ro = self._rep_obj
         if pdop is not ro[0] or hdop is not ro[1] or vdop is not ro[2]:
-            self._rep_obj = (pdop, hdop, vdop)
-            rep = {"pdop": pdop, "hdop": hdop, "vdop": vdop, "gdop": None}  # GSA carries no GDOP
-            self.current_rep = rep
-            rkey = (pdop, hdop, vdop)
+            rkey = self._rep_obj = (pdop, hdop, vdop)
             if rkey != self._rep_key:  # reported values repeat for many epochs: cache their bins
+                self._flush_verdict()
                 self._verdict = None
                 self._flush_rep()
                 self._rep_key = rkey
+                rep = self.current_rep
                 self._rep_bins = [(h, b) for k, h in self.hist_rep.items() if (b := h.bin(rep[k])) is not None]
-        self._rep_run += 1
-        self._calc_run += 1
-        v = self._verdict
-        if v is None:
-            v = self._verdict = self._judge()
-        if v[0]:
-            self.compared += 1
-            if v[1]:
-                self.disagreements += 1
-            if v[2]:
-                self.votes["single" if v[2] > 0 else "per_system"] += 1
-        self.disagreeing = v[1]
+        if self._verdict is None:
+            self._verdict = self._judge()
+        self._n += 1
         if ep.unknown_ids:
             self.unknown_epochs += 1
             if len(self.unknown_ids) < MAX_UNKNOWN_IDS:
                 self.unknown_ids.update(ep.unknown_ids)
 
     def _new_geometry(self, geo: tuple) -> None:
+        self._flush_verdict()
         self._verdict = None
         self._flush_calc()
         self._cache_key = geo
@@ -183,14 +220,16 @@ class DopStats:
             h.add_bin(b, run)
 
     def _flush_rep(self) -> None:
-        if self._rep_run:
-            self._add_run(self._rep_bins, self._rep_run)
-            self._rep_run = 0
+        run = self._n - self._rep_mark
+        if run:
+            self._add_run(self._rep_bins, run)
+            self._rep_mark = self._n
 
     def _flush_calc(self) -> None:
-        if self._calc_run:
-            self._add_run(self._calc_bins, self._calc_run)
-            self._calc_run = 0
+        run = self._n - self._calc_mark
+        if run:
+            self._add_run(self._calc_bins, run)
+            self._calc_mark = self._n
 
     def snapshot(self) -> dict[str, Any]:
         self._flush_rep()

@@ -108,9 +108,12 @@ class Analyzer:
         trend = self.trend
         start = iso(ep.utc if ep.utc is not None else ep.wall) if trend.t0 is None else None
         fixed = ep.quality > 0  # positions of fixed epochs only (the position plot over time)
-        trend.add_values(ep.mono, start, self.position.h_error(), self.signal.cur_mean,
+        mono = ep.mono
+        trend.add_values(mono, start, self.position.h_error(), self.signal.cur_mean,
                          self.dop.current_n or ep.num_sv, ep.lat if fixed else None, ep.lon, ep.h)
-        trend.sky_tracks.add(ep.mono, ep.sats)
+        tracks = trend.sky_tracks
+        if not mono < tracks._next and ep.sats is not tracks._of:  # else SkyTracks.add returns at once
+            tracks.add(mono, ep.sats)
 
     def _fail(self, fn: Callable[..., Any], exc: Exception) -> None:
         self.internal_errors += 1
@@ -154,8 +157,11 @@ class Analyzer:
             "events": self._log.to_json(),
             "events_dropped": self._log.dropped,
             # livefix's own errors, the analysis' and the decoder's, apart from bad input
-            "internal_errors": self.internal_errors + int(getattr(counters, "internal_errors", 0)),
-            "last_error": self.last_error or getattr(counters, "last_internal_error", None),
+            # (after "reflection": its snapshot evaluates the arc checks it deferred, and counts their failures)
+            "internal_errors": self.internal_errors + self.reflection.errors
+            + int(getattr(counters, "internal_errors", 0)),
+            "last_error": self.last_error or self.reflection.last_error
+            or getattr(counters, "last_internal_error", None),
         }
         return jsonable(out)
 

@@ -107,6 +107,7 @@ class FixStats:
         self._gap_split = False  # an outage was cut by a data gap and no fix came since
         self.book = TimeBook()
         self._fix_marked = False  # book.mark("fix") done
+        self._rtk_marked = False  # book.mark("rtk_fixed") done
         self.restarts = {"commanded": 0, "receiver": 0}
         self.no_position = 0  # epochs without any position sentence, left out of the fix figures
         self.outages: deque[dict[str, Any]] = deque(maxlen=LIST_CAP)
@@ -193,14 +194,20 @@ class FixStats:
             self.note_data_gap(ev.mono)
 
     def on_epoch(self, ep: Epoch) -> None:
-        t = self.clock.step(ep)
+        clock = self.clock
+        t = clock.step(ep)
         # labels on the receiver's clock: an epoch without a time (no fix, empty time fields) is
         # placed from the latest receiver time and the session timeline, not by the host clock
         if ep.utc is not None:
             self._anchor = (t, ep.utc)
-        abs_t = ep.wall if self._anchor is None else self._anchor[1] + (t - self._anchor[0])
-        gap = self._after_gap(t, ep.mono)
-        if ep.sentences and _POSITION_SENTENCES.isdisjoint(ep.sentences):
+        anchor = self._anchor
+        abs_t = ep.wall if anchor is None else anchor[1] + (t - anchor[0])
+        if self._gaps_at:
+            gap = self._after_gap(t, ep.mono)
+        else:  # _after_gap without a gap noted: only the host time moves on
+            self._last_mono, gap = ep.mono, False
+        sentences = ep.sentences
+        if sentences and _POSITION_SENTENCES.isdisjoint(sentences):
             # nothing decodable said whether there was a fix (e.g. GGA and RMC lost to checksum
             # errors): that is a stream fault, counted there, not a receiver outage
             self.no_position += 1
@@ -209,44 +216,55 @@ class FixStats:
             self._account(ep, t, abs_t, UNKNOWN, gap)
             return
         self.epochs += 1
-        if self._prev_t is not None and t > self._prev_t:
-            self._add_dt(t - self._prev_t)
+        pt = self._prev_t
+        if pt is not None and t > pt:
+            q, dt = self._dts, t - pt
+            if len(q) == DT_N and q[0] == dt:  # _add_dt's shortcut inline: window and median unchanged
+                q.append(dt)
+            else:
+                self._add_dt(dt)
         fixed = self._valid(ep)
-        name = FIX_NAMES.get(ep.quality, "none") if fixed else "none"  # Epoch.fix
-        self.counts[name] = self.counts.get(name, 0) + 1
+        quality = ep.quality
+        name = FIX_NAMES.get(quality, "none") if fixed else "none"  # Epoch.fix
+        self.counts[name] += 1  # every fix name is a key (reset)
         # a commanded restart applies from the first epoch begun after it: the epoch in progress
         # when the command went out still belongs to the old start
         commanded = self._restart_at is not None and ep.mono >= self._restart_at
         if commanded:
             self._restart_at = None
-        if self._start is None:
+        s = self._start
+        if s is None:
             self._new_start(t, abs_t, self._cause)
-        elif commanded or ((self.clock.reset or self._clock_lost) and not fixed):
+            s = self._start
+        elif commanded or ((clock.reset or self._clock_lost) and not fixed):
             self._new_start(t, abs_t, "restart", commanded=commanded)
+            s = self._start
             # A restart we were told of (marker) takes effect an epoch or so later: fixes that the
             # receiver still reports before it drops the fix belong to the old start.
             self._await_loss = commanded and fixed
             self._acquiring = commanded
         self._clock_lost = False
-        s = self._start
         assert s is not None
         if s["_q0"] is None:  # (tested here too: a call per epoch for the first epoch only)
-            start_rec.first_epoch(s, ep.quality, fixed)
+            start_rec.first_epoch(s, quality, fixed)
         if not fixed:
             self._await_loss = False
-        elif not self._await_loss:
-            self._acquiring = False
-            if s["_wait"]:  # some TTFF of this start still waits (as start_rec.on_fix tests)
-                start_rec.on_fix(s, t, ep.quality)
-        bucket = RESTART if self._acquiring and not fixed else name
+            bucket = RESTART if self._acquiring else name
+        else:
+            if not self._await_loss:
+                self._acquiring = False
+                if s["_wait"]:  # some TTFF of this start still waits (as start_rec.on_fix tests)
+                    start_rec.on_fix(s, t, quality)
+            bucket = name
         regained = self._account(ep, t, abs_t, bucket, gap)
         if fixed:
             if not self._fix_marked:  # book.has_mark("fix"), remembered
                 self.book.mark("fix")
                 self._fix_marked = True
-            if ep.quality == 4:
+            if quality == 4 and not self._rtk_marked:  # book.mark keeps only the first: remembered
                 self.book.mark("rtk_fixed")
-            self._jump(ep, t, abs_t, name, check=not regained)
+                self._rtk_marked = True
+            self._jump(ep, t, abs_t, name, not regained)
         self.current = name
         self._prev_t = t
 

@@ -67,8 +67,12 @@ class Projector:
         if m[0] is lat and m[1] is lon and m[2] is h:
             return m[3]
         ecef = self._ecef
-        m = ecef._m  # the ECEF memo's test inline (this is the hot caller)
-        x, y, z = m[3] if m[0] is lat and m[1] is lon and m[2] is h else ecef(lat, lon, h)
+        m = ecef._m  # the ECEF memo inline (this is the hot caller): its test, and its update
+        if m[0] is lat and m[1] is lon and m[2] is h:
+            x, y, z = m[3]
+        else:
+            x, y, z = xyz = geodetic_to_ecef(lat, lon, h)
+            ecef._m = (lat, lon, h, xyz)
         ox, oy, oz, r00, r01, r10, r11, r12, r20, r21, r22 = self._k
         dx, dy, dz = x - ox, y - oy, z - oz
         out = (r00 * dx + r01 * dy,

@@ -145,13 +145,19 @@ class StreamIntegrity:
         if p is None:
             return
         holes = self._holes
-        hole = bool(holes) and any(p.mono < h <= ep.mono for h in holes)
-        while holes and holes[0] <= p.mono:
-            holes.popleft()
-        host = ep.mono - p.mono
-        dt = host
-        if ep.utc is not None and p.utc is not None and 0 < ep.utc - p.utc < 3600:
-            dt = ep.utc - p.utc
+        pm, mono = p.mono, ep.mono
+        if holes:
+            hole = any(pm < h <= mono for h in holes)
+            while holes and holes[0] <= pm:
+                holes.popleft()
+        else:
+            hole = False
+        dt = host = mono - pm
+        utc, pu = ep.utc, p.utc
+        if utc is not None and pu is not None:
+            d = utc - pu
+            if 0 < d < 3600:
+                dt = d
         if not dt > 0:  # also NaN (a broken stamp): never enters the interval window
             return
         nominal = self._nominal
@@ -166,7 +172,11 @@ class StreamIntegrity:
                 del self.gaps[0]
         else:
             self.iv_host.append(host)
-        self._add_interval(dt)
+        q = self.iv_nominal
+        if len(q) == WINDOW and q[0] == dt and not self._iv_nan:  # _add_interval's shortcut inline
+            q.append(dt)
+        else:
+            self._add_interval(dt)
 
     def _add_interval(self, dt: float) -> None:
         q, srt = self.iv_nominal, self._iv_sorted

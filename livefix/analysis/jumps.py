@@ -71,6 +71,7 @@ class Jumps:
         self.cfg = config
         self.lim_h = dict(config.converge_h)
         self.lim_v = dict(config.converge_v)
+        self._lims: dict[str, tuple[float, float, float]] = {}  # fix -> (k, radius h, radius v), as limits reads them
         self.centres: dict[str, _Centre] = {}
         self.open: dict[str, dict[str, Any]] = {}  # fix -> the running excursion
         self.items: deque[dict[str, Any]] = deque(maxlen=LIST_CAP)
@@ -87,22 +88,52 @@ class Jumps:
         return (sh if sh > lh else lh, sv if sv > lv else lv)
 
     def check(self, fix: str, t: float, abs_t: float | None, e: float, n: float, u: float) -> bool:
-        """True when the epoch (session time t) is settled behaviour, False inside an excursion."""
+        """True when the epoch (session time t) is settled behaviour, False inside an excursion.
+        `limits` and `_Centre.add` are spelt out here for the settled case (a call each per epoch)."""
         c = self.centres.get(fix)
         if c is None:
             c = self.centres[fix] = _Centre()
         if c.n < WARMUP:
             c.add(e, n, u)
             return True
-        lh, lv = self.limits(fix, c)
+        lims = self._lims.get(fix)
+        if lims is None:
+            cfg = self.cfg
+            lims = self._lims[fix] = (cfg.jump_sigma, self.lim_h.get(fix, cfg.jump_m),
+                                      self.lim_v.get(fix, 2.0 * cfg.jump_m))
+        k, lh, lv = lims
+        vh, vu = c.vh, c.vu
+        sh, sv = k * math.sqrt(vh), k * math.sqrt(vu)
+        if sh > lh:
+            lh = sh
+        if sv > lv:
+            lv = sv
         cc = c.c
-        dh = math.hypot(e - cc[0], n - cc[1])
-        dv = abs(u - cc[2]) if u == u and c.nu >= WARMUP else 0.0
+        c0, c1 = cc[0], cc[1]
+        dh = math.hypot(e - c0, n - c1)
+        uu = u == u
+        dv = abs(u - cc[2]) if uu and c.nu >= WARMUP else 0.0
         out = dh > lh or dv > lv
         x = self.open.get(fix)
         if x is None:
-            if not out:
-                c.add(e, n, u)
+            if not out:  # _Centre.add(e, n, u), the same operations
+                c.n = cn = c.n + 1
+                a = 1.0 / cn
+                if _EW_A > a:
+                    a = _EW_A
+                de, dn = e - c0, n - c1
+                cc[0] = c0 + a * de
+                cc[1] = c1 + a * dn
+                c.vh = (1 - a) * (vh + a * (de * de + dn * dn))
+                if uu:
+                    c.nu = nu = c.nu + 1
+                    b = 1.0 / nu
+                    if _EW_A > b:
+                        b = _EW_A
+                    c2 = cc[2]
+                    du = u - c2
+                    cc[2] = c2 + b * du
+                    c.vu = (1 - b) * (vu + b * du * du)
                 return True
             x = self.open[fix] = {"t": t, "start": iso(abs_t), "fix": fix, "size_h_m": dh, "size_v_m": dv,
                                   "back": None, "last": t, "lvl": [e, n, u, 0]}

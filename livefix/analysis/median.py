@@ -19,7 +19,7 @@ from collections.abc import Callable, Iterable
 from typing import Any
 
 from livefix.analysis.streaming import valid_fix
-from livefix.state.epoch import Epoch
+from livefix.state.epoch import FIX_NAMES, Epoch
 
 MAX_BINS = 2048  # per coordinate: memory stays a few hundred kB whatever the session length
 DEG_WIDTH = 1e-8  # starting bin width of latitude and longitude, degrees (about 1 mm)
@@ -180,10 +180,14 @@ class MedianPosition:
     def on_epoch(self, ep: Epoch) -> None:
         if not self._valid(ep):
             return
-        m = self.by_fix.get(ep.fix)
+        fix = FIX_NAMES.get(ep.quality, "none")  # Epoch.fix
+        m = self.by_fix.get(fix)
         if m is None:
-            m = self.by_fix[ep.fix] = _FixMedians()
-        m.add(ep)
+            m = self.by_fix[fix] = _FixMedians()
+        p = m._pend  # _FixMedians.add inline (once per fixed epoch)
+        p.append((ep.lat, ep.lon, ep.h, ep.alt_msl, ep.sep))
+        if len(p) >= BATCH:
+            m._settle()
 
     def snapshot(self) -> dict[str, Any]:
         return {"by_fix": {k: self.by_fix[k].snapshot() for k in sorted(self.by_fix)},

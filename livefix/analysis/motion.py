@@ -44,6 +44,10 @@ class MotionDetector:
         self.reset()
 
     def reset(self) -> None:
+        cfg = self.cfg  # frozen: its thresholds are read once here, not per epoch (hot)
+        self._w, self._hw = cfg.motion_window_s, cfg.motion_window_s / 2.0
+        self._need, self._slow_mps, self._fast_mps = cfg.motion_spread_m, cfg.motion_speed_mps, cfg.motion_fast_mps
+        self._hold = cfg.motion_hold_s
         self._full: deque[tuple[float, float, float]] = deque(maxlen=WINDOW_CAP)
         self._half: deque[tuple[float, float, float]] = deque(maxlen=WINDOW_CAP)
         self.moving = False  # current state (with hold)
@@ -61,60 +65,64 @@ class MotionDetector:
     def update(self, t: float, e: float, n: float, speed: float | None) -> bool:
         """Class one fixed epoch (session time t, horizontal E/N in metres); True = moving, i.e. to
         be kept out of the static figures."""
-        cfg = self.cfg
-        w, hw = cfg.motion_window_s, cfg.motion_window_s / 2.0
-        full, half = self._full, self._half
+        full, half, hypot = self._full, self._half, math.hypot
         p = (t, e, n)  # one tuple in both windows
         full.append(p)
         half.append(p)
-        while full[0][0] < t - w:
+        lim = t - self._w
+        while full[0][0] < lim:
             full.popleft()
-        while half[0][0] < t - hw:
+        lim = t - self._hw
+        while half[0][0] < lim:
             half.popleft()
         t0, e0, n0 = full[0]
         tm, em, nm = half[0]
-        need = cfg.motion_spread_m
-        slow = speed is not None and speed <= cfg.motion_speed_mps  # Doppler says it stands still
-        recent = not slow and t > tm and math.hypot(e - em, n - nm) > need  # the latest half moved
-        raw = recent and tm > t0 and math.hypot(em - e0, nm - n0) > need
-        fast = False
+        need = self._need
+        slow = speed is not None and speed <= self._slow_mps  # Doppler says it stands still
+        recent = not slow and t > tm and hypot(e - em, n - nm) > need  # the latest half moved
+        raw = recent and tm > t0 and hypot(em - e0, nm - n0) > need
+        moving = self.moving
         if speed is not None:
             if self.max_speed is None or speed > self.max_speed:
                 self.max_speed = speed
-            fast = speed >= cfg.motion_fast_mps
-        self._fast = self._fast + 1 if fast else 0
-        if fast and len(full) >= 2:  # the position step agrees with the speed: as good as two epochs
-            pt, pe, pn = full[-2]
-            if t > pt and math.hypot(e - pe, n - pn) >= 0.5 * speed * (t - pt):
-                self._fast = max(self._fast, 2)
-        if self._fast >= 2 and not self.moving:  # Doppler says driving: no need to wait for the window
-            self._run = CONFIRM - 1
-            raw = True
+            if speed >= self._fast_mps:
+                fast = self._fast + 1
+                if len(full) >= 2:  # the position step agrees with the speed: as good as two epochs
+                    pt, pe, pn = full[-2]
+                    if t > pt and hypot(e - pe, n - pn) >= 0.5 * speed * (t - pt) and fast < 2:
+                        fast = 2
+                self._fast = fast
+                if fast >= 2 and not moving:  # Doppler says driving: no need to wait for the window
+                    self._run = CONFIRM - 1
+                    raw = True
+            else:
+                self._fast = 0
+        else:
+            self._fast = 0
         if raw:
             self._run += 1
             self._still_since = None
-            if self._run >= CONFIRM and not self.moving:
+            if self._run >= CONFIRM and not moving:
                 self.moves += 1
-                self.moving = True
+                self.moving = moving = True
         else:
             self._run = 0
-            if self.moving:
+            if moving:
                 if self._still_since is None:
                     self._still_since = t
-                elif t - self._still_since >= cfg.motion_hold_s:
-                    self.moving = False
-        # kept out at once when the speed over ground agrees; else the state decides (CONFIRM)
-        out = self.moving or (recent and speed is not None)
+                elif t - self._still_since >= self._hold:
+                    self.moving = moving = False
         self.fixed += 1
-        self.moving_epochs += self.moving
-        if self._prev is not None and t > self._prev[0]:
-            dt = t - self._prev[0]
-            if self._prev[1]:
-                self.moving_s += dt
+        self.moving_epochs += moving
+        prev = self._prev
+        if prev is not None and t > prev[0]:
+            if prev[1]:
+                self.moving_s += t - prev[0]
             else:
-                self.static_s += dt
-        self._prev = (t, self.moving)
-        return out
+                self.static_s += t - prev[0]
+        self._prev = (t, moving)
+        # kept out at once when the speed over ground agrees; else the state decides (CONFIRM)
+        return moving or (recent and speed is not None)
 
     def state(self) -> str | None:
         if not self.fixed:

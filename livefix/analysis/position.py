@@ -41,6 +41,7 @@ from livefix.analysis.jumps import Jumps
 from livefix.analysis.motion import MotionDetector
 from livefix.analysis.position_figures import drift_figures, empty_figures
 from livefix.analysis.streaming import Timeline, num, valid_fix
+from livefix.analysis.track import BATCH as TRACK_BATCH
 from livefix.analysis.track import E, N, Track, U
 from livefix.geodesy import LocalFrame
 from livefix.state.epoch import FIX_NAMES, Epoch, Event
@@ -146,7 +147,8 @@ class PositionStats:
         return h
 
     def on_epoch(self, ep: Epoch) -> None:
-        t = self.clock.follow(ep)  # the Analyzer shares the fix statistics' timeline (stepped there first)
+        clock = self.clock  # the Analyzer shares the fix statistics' timeline (stepped there first)
+        t = clock.t if ep is clock._ep else clock.step(ep)  # Timeline.follow, without the call
         self._epochs += 1
         if not self._valid(ep):
             self._fixed_now = False
@@ -155,8 +157,9 @@ class PositionStats:
             return
         self._fixed_now = True
         fix = FIX_NAMES.get(ep.quality, "none")  # Epoch.fix
-        lat, lon = ep.lat, ep.lon
-        h = self._height(ep)
+        lat, lon, h = ep.lat, ep.lon, ep.h
+        if h is None or self.h_datum != "ellipsoidal":  # else _height(ep) gives h back unchanged
+            h = self._height(ep)
         # no height: project at the last height (a height error moves E/N by d/R only)
         hp = h if h is not None else (self._last[2] if self._last else (self.ref[2] if self.ref else 0.0))
         ap = self._anchor_p
@@ -180,19 +183,22 @@ class PositionStats:
                     self.anchor = ap.frame
                 e, n, u = ap.enu(lat, lon, hp)
                 self._last = (lat, lon, hp)
-        self._fixed_now = True
+                self._fixed_now = True  # _reset_site cleared it
         self._site_en = (e, n)
         if h is None:
             u = NAN
         self.conv.add(t, e, n, u, True, self._target)
-        if not self.jumps.check(fix, t, self.clock.abs_time, e, n, u):
+        if not self.jumps.check(fix, t, clock.abs_time, e, n, u):
             return  # inside a jump or its re-convergence: reported apart, kept out of the scatter
         trk = self.tracks.get(fix)
         if trk is None:
             trk = self.tracks[fix] = Track()
         sl, so, sa, hd = ep.sigma_lat, ep.sigma_lon, ep.sigma_alt, ep.hdop
-        trk.add(t, e, n, u, NAN if sl is None else float(sl), NAN if so is None else float(so),
-                NAN if sa is None else float(sa), NAN if hd is None else float(hd))
+        p = trk._pend  # Track.add inline (once per settled epoch)
+        p.append((t, e, n, u, NAN if sl is None else float(sl), NAN if so is None else float(so),
+                  NAN if sa is None else float(sa), NAN if hd is None else float(hd)))
+        if len(p) >= TRACK_BATCH:
+            trk._settle()
         if self._auto and trk.n == SETTLE_EPOCHS and self._better(fix):
             a = trk.ring.array()[:SETTLE_EPOCHS]
             mu = a[:, U][np.isfinite(a[:, U])]

@@ -7,8 +7,10 @@ sector (30° by default) as a median height, its spread and the multipath amplit
 Fresnel zone of the median height (the GNSS-IR Fresnel-zone paper, GPS Solutions 17 (2013)) so the
 installer knows where on the ground the reflection happens.
 
-Deterministic and bounded: arcs in progress are evaluated at fixed sample counts (CHECK_EVERY), never
-at snapshot time, so the snapshot of a stream does not depend on when it is taken; each sector keeps
+Deterministic and bounded: arcs in progress are checked at fixed sample counts (CHECK_EVERY), never
+at snapshot time, so the snapshot of a stream does not depend on when it is taken (a check's estimate
+is a pure function of the samples up to its count, so it is computed when first read: most checks are
+superseded, or their arc closes, before any snapshot, and are never computed at all); each sector keeps
 its newest KEEP_PER_SECTOR accepted arcs, refused arcs are only counted. The periodogram figure
 gets a fixed-size summary: the mean amplitude spectrum of all accepted arcs on one height grid and
 the spectra of the newest KEEP_CURVES arcs.
@@ -32,6 +34,7 @@ from livefix.analysis.reflection import (
     spectrum,
     wavelength,
 )
+from livefix.faults import log_internal
 from livefix.state.epoch import Epoch
 
 CHECK_EVERY = 300  # samples (~5 min at one a second) between estimates of an arc in progress
@@ -68,6 +71,7 @@ class ReflectionStats:
     def __init__(self, cfg: ReflectionConfig | None = None) -> None:
         self.cfg = cfg or ReflectionConfig()
         self._arcs = ArcCollector(self.cfg)
+        self._sample_s = self.cfg.sample_s  # the collector's sampling interval (frozen config)
         self.reset()
 
     def reset(self) -> None:
@@ -78,6 +82,12 @@ class ReflectionStats:
         self._evaluated = 0
         self._refused: Counter[str] = Counter()
         self._provisional: dict[tuple[str, int, str], ArcResult] = {}  # arcs in progress, last check
+        # checks of arcs in progress not evaluated yet, oldest first: (track, its sample count then).
+        # A check is a pure function of those samples (a track's lists only grow), so it is evaluated
+        # when read, and one superseded by a later check, or whose arc closes first, never is.
+        self._pending: dict[tuple[str, int, str], list[tuple[Any, int]]] = {}
+        self.errors = 0  # checks that failed when evaluated late (counted by the Analyzer)
+        self.last_error: str | None = None
         self._grid = np.arange(self.cfg.h_min_m, self.cfg.h_max_m + SPECTRUM_STEP_M / 2, SPECTRUM_STEP_M)
         self._spec_sum = np.zeros(self._grid.size)
         self._n_spec = 0
@@ -90,7 +100,9 @@ class ReflectionStats:
     def _on_arc(self, arc: Arc) -> None:
         res = evaluate(arc, self.cfg)
         self._evaluated += 1
-        self._provisional.pop((arc.system, arc.prn, arc.signal), None)
+        key = (arc.system, arc.prn, arc.signal)
+        self._provisional.pop(key, None)
+        self._pending.pop(key, None)
         if not res.fit.accepted:
             self._refused[res.fit.why] += 1
             return
@@ -102,35 +114,65 @@ class ReflectionStats:
         self._curves.append((res, amp))
 
     def on_epoch(self, ep: Epoch) -> None:
-        if not self._arcs.on_epoch(ep):
+        arcs = self._arcs
+        if 0 <= ep.mono - arcs._t < self._sample_s:  # the collector would refuse it: save the call
+            return
+        if not arcs.on_epoch(ep):
             return
         if self._arcs.done:
             for arc in self._arcs.done:
                 self._on_arc(arc)
             self._arcs.done.clear()
         tracks = self._arcs.tracks
+        pending = self._pending
         for key, tr in tracks.items():
             n = len(tr.t)
             if n and n % CHECK_EVERY == 0 and tr.last == ep.mono and max(tr.el) - min(tr.el) >= self.cfg.min_span_deg:
-                self._check(key, tr)
+                checks = pending.get(key)
+                if checks is None:
+                    checks = pending[key] = []
+                checks.append((tr, n))  # evaluated when read (_settle_checks)
         for key in [k for k in self._provisional if k not in tracks]:  # arcs closed without an estimate
             del self._provisional[key]
+        for key in [k for k in pending if k not in tracks]:
+            del pending[key]
 
-    def _check(self, key: tuple[str, int, str], tr: Any) -> None:
-        """Estimate an arc in progress from its samples so far (kept until the arc closes)."""
+    def _settle_checks(self) -> None:
+        """Evaluate the waiting checks: per arc, the newest that gives an estimate replaces the last
+        one (an older check would have been overwritten by it; one giving none leaves the last)."""
+        pending, self._pending = self._pending, {}
+        for key, checks in pending.items():
+            for tr, n in reversed(checks):
+                try:
+                    res = self._check(key, tr, n)
+                except Exception as exc:  # noqa: BLE001 - as the Analyzer counts a failing stage
+                    self.errors += 1
+                    self.last_error = f"ReflectionStats._check: {type(exc).__name__}: {exc}"
+                    log_internal(self.errors, "ReflectionStats._check", exc)
+                    continue
+                if res is not None:
+                    self._provisional[key] = res
+                    break
+
+    def _check(self, key: tuple[str, int, str], tr: Any, n: int) -> ArcResult | None:
+        """Estimate an arc in progress from its first n samples (kept until the arc closes); None
+        when they give no estimate."""
         lam = wavelength(key[0], key[2])
         if lam is None:
-            return
-        parts = split_monotonic(np.array(tr.t), np.array(tr.el), np.array(tr.az), np.array(tr.cn0))
+            return None
+        parts = split_monotonic(np.array(tr.t[:n]), np.array(tr.el[:n]), np.array(tr.az[:n]),
+                                np.array(tr.cn0[:n]))
         t, el, az, c = parts[-1]
         inside = (el >= self.cfg.el_min_deg) & (el <= self.cfg.el_max_deg)
         if int(inside.sum()) < self.cfg.min_points:
-            return
+            return None
         arc = Arc(key[0], key[1], key[2], lam, t[inside], el[inside], az[inside], c[inside])
-        self._provisional[key] = evaluate(arc, self.cfg)
+        return evaluate(arc, self.cfg)
 
     # -- reading ---------------------------------------------------------------------------
     def snapshot(self) -> dict[str, Any]:
+        if self._pending:
+            self._settle_checks()
         cfg = self.cfg
         per: list[list[tuple[float, float]]] = [list(s) for s in self._sectors]
         for res in self._provisional.values():

@@ -6,6 +6,8 @@ against what this installation does at the same elevation, not against a fixed n
 Session figures (means, bands, curve) sample the latest epoch once per second of stream time, so
 a 10 Hz and a 1 Hz stream weigh the sky alike; "current" is the latest epoch.
 Curve: least squares cn0 = a + b·sin(el) from running sums (bounded, exact).
+The satellite loops run in C when built (livefix/analysis/_sigcore.c); these Python loops are its
+reference and take over from the first satellite it leaves (odd types, values Python raises on).
 Interference (common practice; NAVITEC 2010, docs/sources.md#interference-indicator): a jammer
 lowers C/N0 on every satellite at once regardless of direction, whereas blockage and multipath hit
 particular sectors. Each signal keeps a slow baseline (exponential, 30 s time constant, frozen while
@@ -22,6 +24,7 @@ import math
 from collections.abc import Callable
 from typing import Any
 
+from livefix.analysis import signal_native
 from livefix.analysis.config import AnalysisConfig
 from livefix.state.epoch import Epoch, Event, SatObs
 from livefix.timefmt import iso
@@ -48,6 +51,11 @@ _CELL_EL = [min(e, 89) // SECTOR_EL for e in range(91)]  # sector row of a whole
 _NO_SYSTEM = object()  # matches no system letter
 
 
+# what the C loops take from this module (handed over once by livefix/analysis/signal_native.py)
+_CORE_ARGS = (SatObs, _SIN, _BAND, _CELL_EL, SECTOR_AZ, BASE_MIN_N, BASE_TAU_S, LOST_S, LOST_CN0)
+_CORE = signal_native.load(_CORE_ARGS)
+
+
 def _sin(el: int) -> float:
     return _SIN[min(max(int(el), 0), 90)]
 
@@ -59,9 +67,11 @@ def _median(xs: list[float]) -> float:
 
 
 class SignalStats:
-    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None]) -> None:
+    def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None], native: bool | None = None) -> None:
+        """native: the satellite loops in C (signal_native.pick: None as LIVEFIX_PURE says)."""
         self.config = config
         self.emit = emit
+        self._core = signal_native.pick(_CORE, native)
         self.reset()
 
     def reset(self) -> None:
@@ -106,12 +116,25 @@ class SignalStats:
             self._interference(ep)
 
     def _accumulate(self) -> None:
+        cur, core = self.cur, self._core
+        done = 0 if core is None else core.accumulate(cur, self.cs, self.by_sys, self.bands, self.cells,
+                                                      self.config.elev_mask_deg)
+        if done < len(cur):
+            self._accumulate_sats(cur if done == 0 else cur[done:])
+        if cur:
+            self.n += len(cur)
+            self.sum += self._cur_sum
+            self.top4_sum += self.cur_top4 or 0.0
+            self.top4_n += 1
+
+    def _accumulate_sats(self, sats: list[SatObs]) -> None:
+        """Session sums of these tracked signals (the reference of _sigcore.accumulate)."""
         mask = self.config.elev_mask_deg
         cs, bands, by_sys, sin, cells, band = self.cs, self.bands, self.by_sys, _SIN, self.cells, _BAND
         by_sys_get, cells_get, cell_el, last = by_sys.get, cells.get, _CELL_EL, _NO_SYSTEM
         n0, sx, sxx, sy, sxy = cs  # running sums in locals, the same additions in the same order
         try:  # finally: a bad satellite leaves the sums as far as they got, as in-place adds did
-            for s in self.cur:
+            for s in sats:
                 c = s.cn0 or 0
                 system = s.system
                 if system != last:  # the sky is sorted by system: look the sums up once per run
@@ -144,20 +167,54 @@ class SignalStats:
                             cell[2] += c
         finally:
             cs[:] = (n0, sx, sxx, sy, sxy)
-        if self.cur:
-            self.n += len(self.cur)
-            self.sum += self._cur_sum
-            self.top4_sum += self.cur_top4 or 0.0
-            self.top4_n += 1
 
     def _interference(self, ep: Epoch) -> None:
         t, thr, base = ep.mono, self.config.interference_drop_db, self.base
         frozen = self.active is not None
         drops: list[float] = []  # every satellite with a baseline; lost ones count as dropped
         measured: list[float] = []  # those still tracked
-        seen = set()
+        seen: set[tuple] = set()
+        sats, core = ep.sats, self._core
+        done = 0 if core is None else core.baselines(sats, base, t, thr, frozen, seen, drops, measured)
+        if done < len(sats):
+            self._baseline_sats(sats if done == 0 else sats[done:], t, thr, frozen, seen, drops, measured)
+        if len(base) > len(seen) or not seen.issuperset(base):
+            for k in [k for k in base if k not in seen]:
+                b = base[k]
+                if t - b[2] > FORGET_S:
+                    del base[k]
+                elif t - b[2] <= LOST_S and b[1] >= BASE_MIN_N:
+                    drops.append(max(thr, b[0] - LOST_CN0))
+        if len(measured) < MIN_MEASURED:  # nothing (or too little) left to judge by: not decided here
+            return
+        med = _median(measured)
+        share = sum([d >= thr for d in drops]) / len(drops)  # a count of True, as an int
+        act = self.active
+        if act is None and share >= SHARE and med >= thr:
+            self.active = {"mono": t, "start": iso(ep.utc if ep.utc is not None else ep.wall),
+                           "drop_db": med, "sats": len(drops), "last": t}
+            self.emit(Event(t, ep.wall, "interference", f"broadband C/N0 drop of {med:.1f} dB on "
+                            f"{round(share * len(drops))} of {len(drops)} satellites", ep.utc,
+                            {"phase": "start", "drop_db": round(med, 1)}))
+        elif act is not None:
+            act["last"] = t
+            act["drop_db"] = max(act["drop_db"], med)
+            if med < thr / 2:
+                dur = t - act["mono"]
+                self._record(act, dur, False)
+                self.active = None
+                self.emit(Event(t, ep.wall, "interference", f"C/N0 recovered after {dur:.0f} s "
+                                f"(largest median drop {act['drop_db']:.1f} dB)", ep.utc,
+                                {"phase": "end", "duration_s": round(dur, 1),
+                                 "drop_db": round(act["drop_db"], 1)}))
+
+    def _baseline_sats(self, sats: tuple[SatObs, ...], t: float, thr: float, frozen: bool, seen: set[tuple],
+                       drops: list[float], measured: list[float]) -> None:
+        """Baselines of these signals updated, their drops collected (the reference of
+        _sigcore.baselines)."""
+        base = self.base
         seen_add, base_get, drop, meas, min_n = seen.add, base.get, drops.append, measured.append, BASE_MIN_N
-        for s in ep.sats:
+        for s in sats:
             k = (s.system, s.prn, s.signal)  # SatObs.key
             seen_add(k)
             b = base_get(k)
@@ -188,35 +245,6 @@ class SignalStats:
                 b[2] = t
             elif c is not None:
                 base[k] = [float(c), 1, t]
-        if len(base) > len(seen) or not seen.issuperset(base):
-            for k in [k for k in base if k not in seen]:
-                b = base[k]
-                if t - b[2] > FORGET_S:
-                    del base[k]
-                elif t - b[2] <= LOST_S and b[1] >= BASE_MIN_N:
-                    drops.append(max(thr, b[0] - LOST_CN0))
-        if len(measured) < MIN_MEASURED:  # nothing (or too little) left to judge by: not decided here
-            return
-        med = _median(measured)
-        share = sum([d >= thr for d in drops]) / len(drops)  # a count of True, as an int
-        act = self.active
-        if act is None and share >= SHARE and med >= thr:
-            self.active = {"mono": t, "start": iso(ep.utc if ep.utc is not None else ep.wall),
-                           "drop_db": med, "sats": len(drops), "last": t}
-            self.emit(Event(t, ep.wall, "interference", f"broadband C/N0 drop of {med:.1f} dB on "
-                            f"{round(share * len(drops))} of {len(drops)} satellites", ep.utc,
-                            {"phase": "start", "drop_db": round(med, 1)}))
-        elif act is not None:
-            act["last"] = t
-            act["drop_db"] = max(act["drop_db"], med)
-            if med < thr / 2:
-                dur = t - act["mono"]
-                self._record(act, dur, False)
-                self.active = None
-                self.emit(Event(t, ep.wall, "interference", f"C/N0 recovered after {dur:.0f} s "
-                                f"(largest median drop {act['drop_db']:.1f} dB)", ep.utc,
-                                {"phase": "end", "duration_s": round(dur, 1),
-                                 "drop_db": round(act["drop_db"], 1)}))
 
     def _record(self, act: dict[str, Any], dur: float, ongoing: bool) -> None:
         self.events_total += 1

@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Iterable, Sequence
+from itertools import chain
 from math import isfinite, log
 from typing import Any
 
@@ -156,10 +157,12 @@ class Ring:
         k = len(p)
         if not k:
             return
+        buf = self.buf
+        rows = np.fromiter(chain.from_iterable(p), float, count=k * buf.shape[1]).reshape(k, -1)  # one C pass
         i, j, cap = self._i, 0, self.cap
         while j < k:
             m = min(k - j, cap - i)
-            self.buf[i:i + m] = p[j:j + m]
+            buf[i:i + m] = rows[j:j + m]
             i = (i + m) % cap
             j += m
         self._i = i
@@ -244,16 +247,20 @@ class LogHistogram:
         """add(x) for each x (counts only: the order does not matter)."""
         bins, step = self.bins, _LH_STEP
         get = bins.get
-        for x in xs:
-            try:  # the common case in one go; the rare values fail inside log() or round()
-                b = round(log(x) / step)  # type: ignore[arg-type]
-            except (ValueError, TypeError, OverflowError):  # 0, negative, NaN, inf, None
-                if x == 0:
-                    self.zeros += 1
-                    self.n += 1
-                continue
-            bins[b] = get(b, 0) + 1
-            self.n += 1
+        n = 0  # values counted, added to self.n once (finally: as far as the loop got)
+        try:
+            for x in xs:
+                try:  # the common case in one go; the rare values fail inside log() or round()
+                    b = round(log(x) / step)  # type: ignore[arg-type]
+                except (ValueError, TypeError, OverflowError):  # 0, negative, NaN, inf, None
+                    if x == 0:
+                        self.zeros += 1
+                        n += 1
+                    continue
+                bins[b] = get(b, 0) + 1
+                n += 1
+        finally:
+            self.n += n
 
     def quantile(self, p: float) -> float | None:
         """The p-quantile (0..1) as the centre of its bin; None before any value."""

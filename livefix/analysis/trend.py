@@ -20,6 +20,7 @@ from livefix.analysis.skytrack import SkyTracks
 MAX_POINTS = 600
 FIELDS = ("h_err_m", "cn0_mean", "sats_used", "lat", "lon", "h")
 _DIGITS = (4, 4, 4, 9, 9, 4)
+_BUCKET_LEN = 2 + 2 * len(FIELDS)  # n, Σt, then (sum, n) per field
 
 
 class Trend:
@@ -45,9 +46,11 @@ class Trend:
                    sats_used: float | None, lat: float | None = None, lon: float | None = None,
                    h: float | None = None) -> None:
         """add() with the FIELDS in order, positionally (the per-epoch path: no keyword dict)."""
-        if self.t0 is None:
-            self.t0, self.t0_iso = mono, wall_iso
-        t = mono - self.t0
+        t0 = self.t0
+        if t0 is None:
+            self.t0 = t0 = mono
+            self.t0_iso = wall_iso
+        t = mono - t0
         if t < 0:  # host clock stepped back in a recording: keep order, clamp
             t = 0.0
         idx = int(t // self.width)
@@ -57,11 +60,12 @@ class Trend:
         bs = self.buckets
         if idx < len(bs):
             b = bs[idx]
+            if b is None:
+                b = bs[idx] = [0.0] * _BUCKET_LEN
         else:
-            bs.extend([None] * (idx + 1 - len(bs)))
-            b = None
-        if b is None:
-            b = bs[idx] = [0.0] * (2 + 2 * len(FIELDS))
+            bs.extend([None] * (idx - len(bs)))
+            b = [0.0] * _BUCKET_LEN
+            bs.append(b)
         b[0] += 1
         b[1] += t
         if h_err_m is not None and isfinite(h_err_m):

@@ -12,7 +12,6 @@ from __future__ import annotations
 
 import datetime as _dt
 from collections import deque
-from statistics import median
 
 from livefix.dates import CONFIRM_EPOCHS, agrees, date_problem, jump_limit
 from livefix.timefmt import date_known, iso
@@ -53,27 +52,43 @@ class UtcClock:
         # Per-epoch answers that repeat epoch after epoch (the same dates, the same steps), kept
         # here so that a 10 Hz stream does not recompute them: bounded, owned by this clock.
         self._nominal: float | None = None  # median of _steps, None after a change
-        self._problems: dict[tuple, str | None] = {}  # (date, ref, prev_bad) -> date_problem
+        self._problems: dict[tuple, str | None] = {}  # (date, host date, last valid, last bad) -> why
         self._midnight: tuple[_dt.date | None, float] = (None, 0.0)  # (date, _day_start(date))
+        self._host: tuple[float, float, _dt.date | None] = (0.0, 0.0, None)  # [lo, hi) of host walls -> date
 
     @property
     def nominal_s(self) -> float:
         """Typical epoch interval, median of recent forward steps (1 s until known)."""
         n = self._nominal
         if n is None:
-            n = self._nominal = median(self._steps) if self._steps else 1.0
+            s = sorted(self._steps)  # statistics.median, inline (once an epoch at 10-20 Hz)
+            k = len(s)
+            n = self._nominal = (s[k // 2] if k % 2 else (s[k // 2 - 1] + s[k // 2]) / 2) if k else 1.0
         return n
 
-    def _problem(self, d: _dt.date, ref: _dt.date | None, bad: _dt.date | None) -> str | None:
-        """date_problem(d, ref, bad), remembered (a pure function of three dates)."""
-        key = (d, ref, bad)
+    def _problem(self, given: _dt.date, host: _dt.date | None) -> str | None:
+        """Why the receiver's date is not valid, checked against the host's date and then against
+        its own last valid date (date_problem), remembered: a pure function of four dates."""
+        key = (given, host, self._given, self._bad)
         memo = self._problems
-        if key in memo:
-            return memo[key]
-        if len(memo) >= _MEMO_MAX:
-            memo.clear()
-        why = memo[key] = date_problem(d, ref, bad)
+        why = memo.get(key, memo)
+        if why is memo:
+            if len(memo) >= _MEMO_MAX:
+                memo.clear()
+            why = memo[key] = (date_problem(given, host, self._bad) if host is not None else None) or \
+                date_problem(given, self._given, self._bad)
         return why
+
+    def _host_date(self, wall: float) -> _dt.date:
+        """The host's UTC date at wall, remembered for its day: walls within a millisecond before
+        midnight are computed afresh (fromtimestamp rounds to microseconds, up to the next day)."""
+        lo, hi, d = self._host
+        if lo <= wall < hi and d is not None:
+            return d
+        d = _dt.datetime.fromtimestamp(wall, tz=_UTC).date()
+        lo = _day_start(d)
+        self._host = (lo, lo + _DAY - 0.001, d)
+        return d
 
     def _start_of(self, d: _dt.date) -> float:
         """_day_start(d), remembered for the last date."""
@@ -86,13 +101,12 @@ class UtcClock:
     def resolve(self, tod: float, given: _dt.date | None, wall: float, mono: float | None = None
                 ) -> tuple[float | None, list[Note]]:
         notes: list[Note] = []
-        host = _dt.datetime.fromtimestamp(wall, tz=_UTC).date() if date_known(wall) else None
+        host = self._host_date(wall) if date_known(wall) else None
         keep = (self.date, self._last_tod, self._given)
         change: Note | None = None
         if given is not None:
             # a rolled-over date shows against the host's date or the receiver's own last valid one
-            why = (self._problem(given, host, self._bad) if host is not None else None) or \
-                self._problem(given, self._given, self._bad)
+            why = self._problem(given, host)
             if why is not None:
                 if not self._date_bad:
                     notes.append(("receiver_date_invalid", f"receiver date {given} not valid: {why}",

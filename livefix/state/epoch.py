@@ -2,8 +2,14 @@
 
 from __future__ import annotations
 
-from dataclasses import dataclass, field
-from typing import Any
+from collections.abc import Callable
+from dataclasses import dataclass, field, fields
+from functools import partial
+from typing import Any, TypeVar
+
+from livefix.framing import built_core, native_core
+
+T = TypeVar("T")
 
 # GGA quality indicator -> our fix-type names (NMEA 0183; 0-2 verified, 3-8 from memory, see
 # docs/sources.md#gga-quality). These names are the keys of fix availability everywhere.
@@ -119,3 +125,47 @@ class Event:
         # "clock" says whose time "time" is: the receiver's UTC, or the host clock when no UTC is known
         return {"time": iso(self.utc if self.utc is not None else self.wall), "kind": self.kind,
                 "text": self.text, "clock": "receiver" if self.utc is not None else "host", **self.data}
+
+
+def slot_maker(cls: type[T], native: bool | None = None) -> Callable[[tuple], T]:
+    """A constructor from one tuple of field values in field order, equal to cls(*values) for a
+    slotted dataclass without __post_init__.
+
+    Why: a frozen dataclass's __init__ sets each field through object.__setattr__ (~3 us for an
+    Epoch, made at 10-20 Hz). The C core's make() stores the references at the slot offsets
+    (~0.1 us); the pure path calls the slot descriptors' setters (~1.7 us). native: None as
+    native_core() says, True the C core when built (tests), False the pure path. A wrong length
+    or a non-tuple raises TypeError on both paths."""
+    names = tuple(f.name for f in fields(cls))  # type: ignore[arg-type]
+    if tuple(getattr(cls, "__slots__", ())) != names:
+        raise TypeError(f"{cls.__name__}: slot_maker needs a slotted dataclass, slots in field order")
+    if hasattr(cls, "__post_init__"):
+        raise TypeError(f"{cls.__name__}: slot_maker would skip __post_init__")
+    slots = tuple(cls.__dict__[n] for n in names)
+    core = native_core() if native is None else built_core() if native else None
+    make = getattr(core, "make", None)  # None also for a core built before make() existed
+    if make is not None:
+        return partial(make, slots)
+    setters, new, n = tuple(d.__set__ for d in slots), object.__new__, len(names)
+
+    def make_pure(values: tuple) -> T:
+        if values.__class__ is not tuple or len(values) != n:
+            raise TypeError(f"{cls.__name__}: a tuple of {n} values")
+        obj = new(cls)
+        for put, v in zip(setters, values, strict=True):
+            put(obj, v)
+        return obj
+
+    return make_pure
+
+
+# Epoch and SatObs from a tuple of values in field order (the state model's hot constructors);
+# StateModel._close and Sky write the values in this order.
+EPOCH_FIELDS = ("mono", "wall", "utc", "quality", "lat", "lon", "h", "alt_msl", "sep", "num_sv", "hdop", "pdop",
+                "vdop", "fix_dim", "sigma_lat", "sigma_lon", "sigma_alt", "sigma_rms", "speed_mps", "course",
+                "diff_age", "sats", "used_prns", "sentences", "unknown_ids", "date_known", "datum")
+SATOBS_FIELDS = ("system", "prn", "signal", "elev", "azim", "cn0", "used", "last_seen_mono")
+if tuple(f.name for f in fields(Epoch)) != EPOCH_FIELDS or tuple(f.name for f in fields(SatObs)) != SATOBS_FIELDS:
+    raise ImportError("Epoch or SatObs fields changed: update StateModel._close and Sky (livefix.state)")
+make_epoch: Callable[[tuple], Epoch] = slot_maker(Epoch)
+make_satobs: Callable[[tuple], SatObs] = slot_maker(SatObs)

@@ -16,8 +16,10 @@ the set holds what arrived. Either way the set is counted as incomplete.
 
 from __future__ import annotations
 
+import importlib
+import os
 from collections.abc import Mapping
-from types import MappingProxyType
+from types import MappingProxyType, ModuleType
 
 from livefix.state.epoch import TALKER_SYSTEM
 from livefix.state.prn import user_prn
@@ -181,6 +183,35 @@ class GsvAssembler:
             if carried and len(got) + len(carried) == p.total:  # exactly the lost part's satellites
                 got += carried
         return key, (got or None), 1
+
+
+def _built_core() -> ModuleType | None:
+    """The C twin (livefix/state/_gsvcore.c) when it was built with this module's caps, else None
+    (a build older than a change of caps here is not used; tests/state/test_gsv_native.py fails on it)."""
+    try:
+        # the extension itself, not the livefix.state package (whose __init__ imports the model)
+        _gsvcore = importlib.import_module("livefix.state._gsvcore")  # built by setup.py
+    except ImportError:
+        return None
+    caps = (_gsvcore.MAX_PARTS, _gsvcore.MEMO_MAX, _gsvcore.MAX_GROUPS)
+    return _gsvcore if caps == (MAX_PARTS, MEMO_MAX, GsvAssembler.MAX_GROUPS) else None  # a stale build
+
+
+_CORE = _built_core()
+
+
+def make_assembler(native: bool | None = None) -> GsvAssembler:
+    """A GSV set assembler: the C twin when built (same results, counters and list identities, several
+    times faster per line), else GsvAssembler, the reference. native None: the C twin unless
+    LIVEFIX_PURE is "1" (as livefix.framing.native_core()); True: the C twin or RuntimeError (tests);
+    False: the reference."""
+    if native is None:
+        native = _CORE is not None and os.environ.get("LIVEFIX_PURE") != "1"
+    elif native and _CORE is None:
+        raise RuntimeError("the C core livefix.state._gsvcore is not built (or built with other caps)")
+    if native:
+        return _CORE.GsvAssembler(_part_sats, TALKER_SYSTEM)  # type: ignore[union-attr, no-any-return]
+    return GsvAssembler()
 
 
 def _part_sats(system: str | None, vals: tuple) -> Part:

@@ -9,13 +9,16 @@ the GSV parts, the sky and the event queue all have caps, so memory does not gro
 from __future__ import annotations
 
 import datetime as _dt
+from collections.abc import Mapping
+from types import MappingProxyType
 from typing import Any
 
 from livefix.decode import Decoded, Rejected
 from livefix.items import Link, LinkEvent, Marker
 from livefix.state.clock import UtcClock
-from livefix.state.epoch import Epoch, Event, SatObs
-from livefix.state.sky import GsvAssembler, Sky
+from livefix.state.epoch import Epoch, Event, SatObs, make_epoch
+from livefix.state.gsv import make_assembler
+from livefix.state.sky import Sky
 from livefix.state.texts import ReceiverTexts
 from livefix.state.used import UsedTracker, solution_gsa
 
@@ -39,7 +42,6 @@ MAX_SENTENCES = 64  # per epoch, for the `sentences` list
 MAX_EVENTS = 1000  # undrained events kept
 GSV_EVENT_EVERY_S = 30.0  # rate limit of "gsv_incomplete" events
 
-
 TXT_PER_S = 2  # receiver text events per second of stream at most
 TXT_MAX = 120  # characters of receiver text kept in an event
 
@@ -56,8 +58,12 @@ def _datum(dtm: Any) -> tuple[str, str] | None:
     return (local + (f"/{dtm['subDatum']}" if dtm.get("subDatum") else ""), str(dtm.get("refDatum") or ""))
 
 
+_NUM = (int, float)
+_NONE: Mapping[str, Any] = MappingProxyType({})  # an absent sentence's fields
+
+
 def _num(v: Any) -> float | None:
-    return float(v) if type(v) in (int, float) else None
+    return float(v) if type(v) in _NUM else None
 
 
 def _first(*vals: Any) -> float | None:
@@ -87,7 +93,7 @@ class StateModel:
     def __init__(self, sky_timeout_s: float = 5.0) -> None:
         self._open: _Open | None = None
         self._clock = UtcClock()
-        self._gsv = GsvAssembler()
+        self._gsv = make_assembler()  # the C twin when built (livefix/state/_gsvcore.c)
         self._gsa = UsedTracker()  # GSA used lists of the open epoch
         self._sky = Sky(sky_timeout_s)
         self._used: frozenset[tuple[str, int]] = frozenset()
@@ -251,7 +257,7 @@ class StateModel:
         """GST describes the fix whose time it carries: kept for that epoch only (a receiver may
         send it before or after the fix sentences of its burst)."""
         f = msg.fields
-        t = _tod_of(f.get("time"))
+        t = self._tod if (t := f.get("time")) is self._tod_of else _tod_of(t)  # often its fix's time object
         if t is None or op.tod is None or t == op.tod:
             op.by_type.setdefault("GST", f)
         elif t == self._closed_tod:
@@ -296,21 +302,22 @@ class StateModel:
         assert op is not None
         bt = op.by_type
         gga, gns, rmc, gll = bt.get("GGA"), bt.get("GNS"), bt.get("RMC"), bt.get("GLL")  # POSITION_FROM
-        gsa, gst, vtg = bt.get("GSA") or {}, bt.get("GST") or {}, bt.get("VTG") or {}
+        gsa, gst, vtg = bt.get("GSA") or _NONE, bt.get("GST") or _NONE, bt.get("VTG") or _NONE
         lat = lon = None
         for src in (gga, gns, rmc, gll):
-            if src and _num(src.get("lat")) is not None and _num(src.get("lon")) is not None:
+            if src and type(src.get("lat")) in _NUM and type(src.get("lon")) in _NUM:
                 lat, lon = float(src["lat"]), float(src["lon"])
                 break
-        fix_src = gga or gns or rmc or gll or {}
-        alt_src = gga or gns or {}
+        fix_src = gga or gns or rmc or gll or _NONE
+        alt_src = gga or gns or _NONE
         alt, sep = _num(alt_src.get("alt")), _num(alt_src.get("sep"))
-        speed = _num((rmc or {}).get("spd"))
+        gga, gns, rmc = gga or _NONE, gns or _NONE, rmc or _NONE
+        speed = _num(rmc.get("spd"))
         if speed is not None:
             speed *= KNOT_MPS
-        elif _num(vtg.get("sogk")) is not None:
+        elif type(vtg.get("sogk")) in _NUM:
             speed = vtg["sogk"] / 3.6
-        elif _num(vtg.get("sogn")) is not None:
+        elif type(vtg.get("sogn")) in _NUM:
             speed = vtg["sogn"] * KNOT_MPS
         nav = gsa.get("navMode")
         utc = None
@@ -326,22 +333,19 @@ class StateModel:
                 self._emit(op.mono, op.wall, kind, text, utc, data)
         self._sky.expire(self._mono)
         used = self._gsa.close(op.used, self._sky.in_view, op.mono)
-        if used != self._used:  # usually the same set epoch after epoch: keep its sorted tuple
+        if used is not self._used and used != self._used:  # usually the same set: keep its sorted tuple
             self._used, self._used_sorted = used, tuple(sorted(used))
-        ep = Epoch(
-            mono=op.mono, wall=op.wall, utc=utc, quality=_quality(gga, fix_src), lat=lat, lon=lon,
-            h=alt + sep if alt is not None and sep is not None else None, alt_msl=alt, sep=sep,
-            num_sv=_int_or_none((gga or gns or {}).get("numSV")),
-            hdop=_first((gga or {}).get("HDOP"), (gns or {}).get("HDOP"), gsa.get("HDOP")),
-            pdop=_num(gsa.get("PDOP")), vdop=_num(gsa.get("VDOP")),
-            fix_dim=nav if type(nav) is int else None,
-            sigma_lat=_num(gst.get("stdLat")), sigma_lon=_num(gst.get("stdLong")),
-            sigma_alt=_num(gst.get("stdAlt")), sigma_rms=_num(gst.get("rangeRms")),
-            speed_mps=speed, course=_first((rmc or {}).get("cog"), vtg.get("cogt")),
-            diff_age=_first((gga or {}).get("diffAge"), (gns or {}).get("diffAge")),
-            sats=self._sky.obs(self._used), used_prns=self._used_sorted,
-            sentences=tuple(op.sentences), unknown_ids=self._gsa.unknown,
-            date_known=self._clock.date_known, datum=_datum(bt.get("DTM")))
+        gst_get, num_sv = gst.get, (gga or gns).get("numSV")
+        ep = make_epoch((  # Epoch fields in order (make_epoch: no frozen-dataclass __init__)
+            op.mono, op.wall, utc, _quality(bt.get("GGA"), fix_src), lat, lon,
+            alt + sep if alt is not None and sep is not None else None, alt, sep,
+            num_sv if type(num_sv) is int else None,
+            _first(gga.get("HDOP"), gns.get("HDOP"), gsa.get("HDOP")),
+            _num(gsa.get("PDOP")), _num(gsa.get("VDOP")), nav if type(nav) is int else None,
+            _num(gst_get("stdLat")), _num(gst_get("stdLong")), _num(gst_get("stdAlt")), _num(gst_get("rangeRms")),
+            speed, _first(rmc.get("cog"), vtg.get("cogt")), _first(gga.get("diffAge"), gns.get("diffAge")),
+            self._sky.obs(self._used), self._used_sorted, tuple(op.sentences), self._gsa.unknown,
+            self._clock.date_known, _datum(bt.get("DTM"))))
         self.last_epoch, self._closed_tod = ep, op.tod
         self.epochs += 1
         return ep
@@ -377,10 +381,6 @@ def _tod_of(t: Any) -> float | None:
     if isinstance(t, _dt.time):
         return t.hour * 3600 + t.minute * 60 + t.second + t.microsecond / 1e6
     return None
-
-
-def _int_or_none(v: Any) -> int | None:
-    return v if type(v) is int else None
 
 
 def _quality(gga: dict | None, src: dict) -> int:

@@ -6,7 +6,7 @@ re-exported here for callers that import them from the sky.
 
 from __future__ import annotations
 
-from livefix.state.epoch import TALKER_SYSTEM, SatObs
+from livefix.state.epoch import TALKER_SYSTEM, SatObs, make_satobs
 from livefix.state.gsv import GsvAssembler, RawSat
 from livefix.state.prn import user_prn
 
@@ -39,6 +39,8 @@ class Sky:
         self._lean: tuple[SatObs, ...] = ()  # obs() of the current layout
         self._seen: tuple[tuple, tuple, tuple[SatObs, ...]] | None = None  # layout, monos, seen()
         self._view: tuple[tuple, frozenset[tuple[str, int]], list] | None = None  # in_view() cache
+        self._oldest = float("inf")  # at most the oldest listing time: expire() scans only below it
+        self._order: tuple[tuple, list[int]] = ((), [])  # _plan's satellite keys, their sorted order
 
     def replace(self, group: tuple[str, str], sats: list[RawSat], mono: float) -> None:
         groups = self._groups
@@ -48,14 +50,21 @@ class Sky:
         self._mono.pop(group, None)  # both dicts keep the same order: seen() indexes monos by group
         groups[group] = sats
         self._mono[group] = mono
+        if mono < self._oldest:
+            self._oldest = mono
 
     def expire(self, now_mono: float) -> None:
         limit = now_mono - self.timeout_s
+        if self._oldest >= limit:  # called twice an epoch: usually nothing is that old
+            return
         for g in [g for g, m in self._mono.items() if m < limit]:
             del self._groups[g], self._mono[g]
+        self._oldest = min(self._mono.values(), default=float("inf"))
 
     def _signature(self) -> tuple:
-        return tuple([(g, id(sats)) for g, sats in self._groups.items()])
+        """The groups in order, then their lists' ids: equal exactly when both are."""
+        groups = self._groups
+        return (*groups, *map(id, groups.values()))
 
     def in_view(self) -> frozenset[tuple[str, int]]:
         """(system, prn) of every satellite listed now; the same object while its content holds,
@@ -77,9 +86,9 @@ class Sky:
         """
         sig = self._signature()
         lay = self._layout
-        if lay is None or lay[0] != sig or lay[1] != used:
+        if lay is None or lay[0] != sig or (lay[1] is not used and lay[1] != used):
             lay = self._layout = (sig, used, self._plan(used), list(self._groups.values()))
-            self._lean = tuple(_build(lay[2], None))
+            self._lean = tuple([make_satobs(row) for row, _ in lay[2]])
         return self._lean
 
     def seen(self, used: frozenset[tuple[str, int]]) -> tuple[SatObs, ...]:
@@ -96,41 +105,20 @@ class Sky:
         monos = tuple(self._mono.values())
         cached = self._seen
         if cached is None or cached[0] is not lay or cached[1] != monos:
-            cached = self._seen = (lay, monos, tuple(_build(lay[2], monos)))
+            cached = self._seen = (lay, monos, tuple([make_satobs(row[:7] + (monos[gi],)) for row, gi in lay[2]]))
         return cached[2]
 
     def _plan(self, used: frozenset[tuple[str, int]]) -> list[tuple[tuple, int]]:
+        """Rows of SatObs field values (last_seen_mono 0.0) with their group's index, sorted."""
         merged: dict[tuple[str, int, str], tuple[tuple, int]] = {}
         for gi, ((_, signal), sats) in enumerate(self._groups.items()):
             for system, prn, elev, azim, cn0 in sats:
                 merged[(system, prn, signal)] = ((system, prn, signal, elev, azim, cn0,
-                                                  (system, prn) in used), gi)
-        return [merged[k] for k in sorted(merged, key=lambda k: (SYSTEM_ORDER.get(k[0], 9), k[1], k[2]))]
-
-
-def _build(rows: list[tuple[tuple, int]], monos: tuple[float, ...] | None) -> list[SatObs]:
-    """SatObs for layout rows, without the dataclass __init__ (hot when the sky changes)."""
-    s0, s1, s2, s3, s4, s5, s6 = _SETTERS
-    sm, new, cls = _SET_MONO, _new, SatObs
-    objs: list[SatObs] = []
-    append = objs.append
-    for (a, b, c, d, e, f, g), gi in rows:
-        o = new(cls)
-        s0(o, a)
-        s1(o, b)
-        s2(o, c)
-        s3(o, d)
-        s4(o, e)
-        s5(o, f)
-        s6(o, g)
-        sm(o, monos[gi] if monos is not None else 0.0)
-        append(o)
-    return objs
-
-
-_new = object.__new__
-_SETTERS = tuple(SatObs.__dict__[n].__set__ for n in SatObs.__slots__[:7])
-_SET_MONO = SatObs.__dict__["last_seen_mono"].__set__
-if tuple(SatObs.__slots__) != ("system", "prn", "signal", "elev", "azim", "cn0", "used", "last_seen_mono"):
-    raise ImportError("SatObs fields changed: update livefix.state.sky.Sky.obs")
+                                                  (system, prn) in used, 0.0), gi)
+        keys = tuple(merged)
+        if keys != self._order[0]:  # the same satellites as last time (values change once a second)
+            rank = SYSTEM_ORDER.get  # a stable sort, as sorted(merged, key=...) was
+            self._order = (keys, sorted(range(len(keys)), key=lambda i: (rank(keys[i][0], 9), keys[i][1], keys[i][2])))
+        rows = list(merged.values())
+        return [rows[i] for i in self._order[1]]
 

@@ -8,7 +8,6 @@ carries that reference over to the C core. Skipped when the extension is not bui
 
 from __future__ import annotations
 
-import importlib.util
 import json
 import os
 import subprocess
@@ -18,6 +17,7 @@ from pathlib import Path
 from types import ModuleType
 
 import pytest
+from twinkit import bench_fuzz
 
 from livefix.checksum import with_checksum, xor_checksum
 from livefix.decode import Decoded
@@ -36,11 +36,7 @@ native = pytest.importorskip("livefix._native", reason="the C core livefix._nati
 
 
 def _fuzz() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("livefix_bench_fuzz", ROOT / "bench" / "fuzz.py")
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod
+    return bench_fuzz()  # bench/fuzz.py: the generators `make fuzz` runs under the sanitizers
 
 
 FUZZ = _fuzz()

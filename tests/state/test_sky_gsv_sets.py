@@ -5,16 +5,34 @@ mixed-talker pattern. Fixtures are invented; checksums are computed here."""
 from __future__ import annotations
 
 from collections import Counter
+from collections.abc import Callable
 from pathlib import Path
+from typing import Any
 
 import pytest
 from nmeakit import sentence as cs  # checksum from the standard's definition
 
 from livefix.decode.decoder import Decoder
-from livefix.state import StateModel
-from livefix.state.gsv import GsvAssembler
+from livefix.state import StateModel, gsv
+from livefix.state import model as state_model
 
 CORPUS = Path(__file__).resolve().parents[3] / "shared" / "realdata" / "corpus"
+
+
+@pytest.fixture(autouse=True, params=[False, True], ids=["reference", "native"])
+def assembler(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> Callable[[], object]:
+    """Every test on both GSV assemblers: the pure-Python reference and its C twin (when built),
+    in the state model too (whichever name it builds its assembler from)."""
+    native = request.param
+    if native and gsv._CORE is None:
+        pytest.skip("livefix.state._gsvcore is not built")
+
+    def make(*_: object) -> object:
+        return gsv.make_assembler(native)
+
+    monkeypatch.setattr(state_model, "GsvAssembler", make, raising=False)
+    monkeypatch.setattr(state_model, "make_assembler", make, raising=False)
+    return make
 
 
 
@@ -111,9 +129,9 @@ def test_signal_sets_interleave() -> None:
     assert sm.gsv_incomplete == 0
 
 
-def test_a_talker_change_needs_the_same_total_and_the_next_part() -> None:
+def test_a_talker_change_needs_the_same_total_and_the_next_part(assembler: Callable[[], object]) -> None:
     # a GL part 3/4 with another satellites-in-view total is not the GP set's part 3
-    a = GsvAssembler()
+    a: Any = assembler()
     dec = Decoder()
     for body in MIXED[:2]:
         a.add(body[:2], dec.decode(cs(body)).fields)
