@@ -336,16 +336,15 @@ class StateModel:
         if used is not self._used and used != self._used:  # usually the same set: keep its sorted tuple
             self._used, self._used_sorted = used, tuple(sorted(used))
         gst_get, num_sv = gst.get, (gga or gns).get("numSV")
-        ep = make_epoch((  # Epoch fields in order (make_epoch: no frozen-dataclass __init__)
-            op.mono, op.wall, utc, _quality(bt.get("GGA"), fix_src), lat, lon,
-            alt + sep if alt is not None and sep is not None else None, alt, sep,
-            num_sv if type(num_sv) is int else None,
-            _first(gga.get("HDOP"), gns.get("HDOP"), gsa.get("HDOP")),
-            _num(gsa.get("PDOP")), _num(gsa.get("VDOP")), nav if type(nav) is int else None,
+        ep = make_epoch((  # in epoch.EPOCH_FIELDS order (make_epoch: no frozen-dataclass __init__)
+            op.mono, op.wall, utc, _quality(bt.get("GGA"), fix_src), lat, lon,  # mono .. lon
+            alt + sep if alt is not None and sep is not None else None, alt, sep,  # h, alt_msl, sep
+            num_sv if type(num_sv) is int else None, _first(gga.get("HDOP"), gns.get("HDOP"), gsa.get("HDOP")),
+            _num(gsa.get("PDOP")), _num(gsa.get("VDOP")), nav if type(nav) is int else None,  # .. fix_dim
             _num(gst_get("stdLat")), _num(gst_get("stdLong")), _num(gst_get("stdAlt")), _num(gst_get("rangeRms")),
             speed, _first(rmc.get("cog"), vtg.get("cogt")), _first(gga.get("diffAge"), gns.get("diffAge")),
-            self._sky.obs(self._used), self._used_sorted, tuple(op.sentences), self._gsa.unknown,
-            self._clock.date_known, _datum(bt.get("DTM"))))
+            self._sky.obs(self._used), self._used_sorted, tuple(op.sentences), self._gsa.unknown,  # sats ..
+            self._clock.date_known, _datum(bt.get("DTM"))))  # date_known, datum
         self.last_epoch, self._closed_tod = ep, op.tod
         self.epochs += 1
         return ep
