@@ -6,7 +6,10 @@ STAMP  := $(VENV)/.installed
 
 .PHONY: demo test lint bench mutants fuzz recordings docs clean
 
-$(STAMP): pyproject.toml setup.py livefix/_native.c livefix/state/_gsvcore.c livefix/analysis/_sigcore.c  # C cores rebuilt in place when its source changes
+# every C source and header of the cores (setup.py C_CORES lists them per module), so any edit rebuilds
+C_SRC  := $(wildcard livefix/*.[ch] livefix/*/*.[ch])
+
+$(STAMP): pyproject.toml setup.py $(C_SRC)  # C cores rebuilt in place when a source changes
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install -q --upgrade pip
 	$(PY) -m pip install -q -e '.[test]'

@@ -1,4 +1,6 @@
-"""Build of the optional C cores (livefix/_native.c, livefix/state/_gsvcore.c, livefix/analysis/_sigcore.c);
+"""Build of the optional C cores (livefix._native, livefix.state._gsvcore, livefix.state._usedcore,
+livefix.analysis._sigcore, livefix.analysis._dopcore,
+livefix.analysis._epochcore: C_CORES);
 everything else is declared in pyproject.toml.
 
 Each extension is optional: when it cannot be compiled (no C compiler, no Python headers) the install
@@ -40,13 +42,47 @@ class OptionalBuildExt(build_ext):
 # -ffp-contract=off: no fused multiply-add, so every float is the one Python computes (identity).
 FLAGS = [] if sys.platform == "win32" else ["-O2", "-ffp-contract=off", "-fno-fast-math"]
 
+# Each core's C sources and private headers, one list per module: the one place they are named.
+# bench/fuzz.py reads this literal (its sanitizer build compiles the same lists); the Makefile finds
+# the files by their module prefix. Headers go in `depends`: an edit rebuilds, and the sdist has them.
+C_CORES = {
+    # framing of plain blocks, decoding of the hot sentence types, make()
+    "livefix._native": (
+        ["livefix/_native.c", "livefix/_native_decode.c", "livefix/_native_fields.c", "livefix/_native_make.c"],
+        ["livefix/_native.h"],
+    ),
+    # GSV set assembly (livefix/state/gsv.py keeps the reference and picks this one when built)
+    "livefix.state._gsvcore": (
+        ["livefix/state/_gsvcore.c", "livefix/state/_gsvcore_add.c", "livefix/state/_gsvcore_sets.c",
+         "livefix/state/_gsvcore_store.c"],
+        ["livefix/state/_gsvcore.h"],
+    ),
+    # SignalStats' satellite loops (livefix/analysis/signal.py keeps the reference, picks this one when built)
+    "livefix.analysis._sigcore": (
+        ["livefix/analysis/_sigcore.c", "livefix/analysis/_sigcore_loops.c"],
+        ["livefix/analysis/_sigcore.h"],
+    ),
+    # GSA used-set tracking (livefix/state/used.py keeps the reference and picks this one when built)
+    "livefix.state._usedcore": (
+        ["livefix/state/_usedcore.c", "livefix/state/_usedcore_add.c", "livefix/state/_usedcore_close.c"],
+        ["livefix/state/_usedcore.h"],
+    ),
+    # DopStats' closed-form DOP solve and used-satellite pass (analysis/dopsolve.py and dop.py keep the references)
+    "livefix.analysis._dopcore": (
+        ["livefix/analysis/_dopcore.c", "livefix/analysis/_dopused.c"],
+        ["livefix/analysis/_dopcore.h"],
+    ),
+    # per-epoch passes of the satellite counts, the trend and the sky map (analysis/counts.py, trend.py
+    # and sky.py keep the references)
+    "livefix.analysis._epochcore": (
+        ["livefix/analysis/_epochcore.c", "livefix/analysis/_epochcore_counts.c",
+         "livefix/analysis/_epochcore_trend.c", "livefix/analysis/_epochcore_sky.c"],
+        ["livefix/analysis/_epochcore.h"],
+    ),
+}
+
 setup(
-    ext_modules=[
-        Extension("livefix._native", ["livefix/_native.c"], optional=True, extra_compile_args=FLAGS),
-        # GSV set assembly (livefix/state/gsv.py keeps the reference and picks this one when built)
-        Extension("livefix.state._gsvcore", ["livefix/state/_gsvcore.c"], optional=True, extra_compile_args=FLAGS),
-        # SignalStats' satellite loops (livefix/analysis/signal.py keeps the reference, picks this one when built)
-        Extension("livefix.analysis._sigcore", ["livefix/analysis/_sigcore.c"], optional=True, extra_compile_args=FLAGS),
-    ],
+    ext_modules=[Extension(name, sources, depends=headers, optional=True, extra_compile_args=FLAGS)
+                 for name, (sources, headers) in C_CORES.items()],
     cmdclass={"build_ext": OptionalBuildExt},
 )

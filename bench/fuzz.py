@@ -21,7 +21,6 @@ from __future__ import annotations
 import argparse
 import random
 import resource
-import subprocess
 import sys
 import time
 import traceback
@@ -29,7 +28,7 @@ from pathlib import Path
 from types import ModuleType
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-sys.path.insert(0, str(Path(__file__).resolve().parent))  # fuzz_twins
+sys.path.insert(0, str(Path(__file__).resolve().parent))  # fuzz_twins, fuzz_asan
 
 from livefix.pipeline import Pipeline  # noqa: E402
 from livefix.sources.base import Chunk, Link, LinkEvent, Marker  # noqa: E402
@@ -198,7 +197,13 @@ def native_diff(inputs: int, seed: int = 1, base: list[str] | None = None) -> tu
     return inputs, bad, examples
 
 
+from fuzz_asan import asan_run  # noqa: E402
+from fuzz_dop import dop_diff, load_dop_core, used_diff  # noqa: E402
+from fuzz_epochcore import diff as epochcore_diff  # noqa: E402
+from fuzz_epochcore import load_epoch_core  # noqa: E402
 from fuzz_twins import gsv_diff, gsv_parts, sig_diff, sig_epochs, sig_pair, sig_state  # noqa: E402, F401  (tests read them here)
+from fuzz_used import load_used_core  # noqa: E402
+from fuzz_used import used_diff as tracker_diff  # noqa: E402
 
 
 def _load_ext(name: str, path: str) -> ModuleType:
@@ -235,9 +240,6 @@ def load_gsv_core(path: str) -> None:
     gsv._CORE = mod
 
 
-C_FILES = ("_native.c", "_gsvcore.c", "_sigcore.c")
-
-
 def load_sig_core(path: str) -> None:
     """Use the SignalStats loops built at `path` (the sanitizer build) as livefix.analysis._sigcore."""
     import livefix.analysis
@@ -250,73 +252,46 @@ def load_sig_core(path: str) -> None:
     signal._CORE = mod
 
 
-def asan_run(inputs: int, seed: int, gsv_adds: int, sig_n: int) -> int:
-    """Build the C core, the GSV assembler and the SignalStats loops with AddressSanitizer +
-    UndefinedBehaviorSanitizer into a temporary folder and run the native/pure differentials under
-    them. Leaks count only when a stack names one of the C files (the interpreter keeps memory to
-    the end of the process)."""
-    import os
-    import re
-    import sysconfig
-    import tempfile
+# The later twins: module -> loader of another build of it (the sanitizer build, --twin-core NAME=PATH)
+TWIN_LOADERS = {
+    "livefix.analysis._dopcore": load_dop_core,
+    "livefix.state._usedcore": load_used_core,
+    "livefix.analysis._epochcore": load_epoch_core,
+}
 
-    root = Path(__file__).resolve().parents[1] / "livefix"
-    cc = os.environ.get("CC", "gcc")
-    libasan = subprocess.run([cc, "-print-file-name=libasan.so"], capture_output=True, text=True).stdout.strip()
-    with tempfile.TemporaryDirectory(prefix="livefix-asan-") as tmp:
-        built = []
-        for src in (root / "_native.c", root / "state" / "_gsvcore.c", root / "analysis" / "_sigcore.c"):
-            so = Path(tmp) / (src.stem + (sysconfig.get_config_var("EXT_SUFFIX") or ".so"))
-            cmd = [cc, "-shared", "-fPIC", "-O1", "-g", "-fsanitize=address,undefined", "-fno-omit-frame-pointer",
-                   "-ffp-contract=off", "-Wall", "-I", sysconfig.get_paths()["include"], str(src), "-o", str(so)]
-            subprocess.run(cmd, check=True)
-            built.append(str(so))
 
-        def child(n: int, options: str, adds: int | None = None,
-                  sig: int | None = None) -> tuple[subprocess.CompletedProcess, float]:
-            env = dict(os.environ, LD_PRELOAD=libasan, PYTHONMALLOC="malloc",
-                       ASAN_OPTIONS="detect_leaks=1:exitcode=23:halt_on_error=1" + options,
-                       UBSAN_OPTIONS="print_stacktrace=1:halt_on_error=1")
-            t0 = time.perf_counter()
-            r = subprocess.run([sys.executable, __file__, "--native-diff", "--inputs", str(n), "--seed",
-                                str(seed), "--core", built[0], "--gsv-core", built[1], "--sig-core", built[2],
-                                "--gsv-adds", str(n if adds is None else adds),
-                                "--sig-epochs", str(min(n, 2000) if sig is None else sig)],
-                               env=env, capture_output=True, text=True)
-            return r, time.perf_counter() - t0
+def later_twins(n: int, seed: int) -> int:
+    """The differentials of the later twins (DOP solve and used pass, GSA used tracker, per-epoch
+    passes), each against its Python reference; returns the disagreements in all."""
+    from livefix.analysis import counts, dopsolve
+    from livefix.state import used
 
-        # The interpreter keeps some memory to the end of the process, so a leak is judged two ways:
-        # stacks naming _native.c on a short run with full (slow) unwinding, and leaked allocations
-        # of the whole run against a 100-input run (a per-line leak grows with the inputs).
-        base, _ = child(100, "")
-        traced, _ = child(min(inputs, 2000), ":fast_unwind_on_malloc=0:malloc_context_size=12")
-        r, dt = child(inputs, "", gsv_adds, sig_n)
-    sys.stdout.write(r.stdout)
-
-    def allocs(err: str) -> int:
-        m = re.search(r"leaked in (\d+) allocation", err)
-        return int(m.group(1)) if m else 0
-
-    named = [b for b in re.split(r"\n(?=(?:Direct|Indirect) leak of)", traced.stderr)
-             if re.match(r"(Direct|Indirect) leak of", b) and any(f in b for f in C_FILES)]
-    grown = allocs(r.stderr) - allocs(base.stderr)
-    leaks = len(named) + (grown > 50)
-    errs = base.stderr + traced.stderr + r.stderr
-    asan = errs.count("ERROR: AddressSanitizer")
-    ubsan = errs.count("runtime error:")
-    for block in named[:3]:
-        print(block[:1500], file=sys.stderr)
-    if asan or ubsan:
-        print(errs[-4000:], file=sys.stderr)
-    exits = {x.returncode for x in (base, traced, r)}
-    ok = exits <= {0, 23} and not (asan or ubsan or leaks)  # 23: the leak report of the interpreter's own
-    print(f"RESULT | native fuzz under ASan+UBSan: memory errors, UB, leaks | {asan}, {ubsan}, {leaks} "
-          f"(leaked allocations {allocs(r.stderr)} vs {allocs(base.stderr)} for 100 inputs; "
-          f"{len(named)} naming {', '.join(C_FILES)}) | 0, 0, 0 | {'met' if ok else 'NOT met'}")
-    print(f"RESULT | native fuzz under ASan+UBSan: time | {dt:.0f} s | info | met")
-    if not exits <= {0, 23}:
-        print(f"child exit status {sorted(exits)}", file=sys.stderr)
-    return 0 if ok else 1
+    bad = 0
+    if dopsolve._CORE is None:
+        print("DOP solve: livefix.analysis._dopcore not built, not compared", file=sys.stderr)
+    else:
+        t0 = time.perf_counter()
+        k, handed, b, examples = dop_diff(n, seed)
+        _twin_results("DOP solve", "geometries", k, f"{k:,} ({handed:,} handed back)", 200_000, b, examples, t0)
+        t0 = time.perf_counter()
+        k, handed, b2, examples = used_diff(n // 4, seed)
+        _twin_results("DOP used pass", "epochs", k, f"{k:,} ({handed:,} handed back)", 50_000, b2, examples, t0)
+        bad += b + b2
+    if used._CORE is None:
+        print("GSA used tracker: livefix.state._usedcore not built, not compared", file=sys.stderr)
+    else:
+        t0 = time.perf_counter()
+        k, b, examples = tracker_diff(n // 10, seed)
+        _twin_results("GSA used tracker", "calls", k, f"{k:,}", 20_000, b, examples, t0)
+        bad += b
+    if counts._CORE is None:
+        print("per-epoch passes: livefix.analysis._epochcore not built, not compared", file=sys.stderr)
+    else:
+        t0 = time.perf_counter()
+        k, b, examples = epochcore_diff(n // 2, seed)
+        _twin_results("per-epoch passes", "epochs", k, f"{k:,}", 100_000, b, examples, t0)
+        bad += b
+    return bad
 
 
 def _twin_results(twin: str, unit: str, n: int, count: str, need: int, bad: int, examples: list[str],
@@ -348,6 +323,7 @@ def main() -> int:
     ap.add_argument("--core", help=argparse.SUPPRESS)  # path of the core to load (used by --asan)
     ap.add_argument("--gsv-core", help=argparse.SUPPRESS)  # path of the GSV assembler to load (--asan)
     ap.add_argument("--sig-core", help=argparse.SUPPRESS)  # path of the SignalStats loops to load (--asan)
+    ap.add_argument("--twin-core", action="append", default=[], help=argparse.SUPPRESS)  # NAME=PATH (--asan)
     args = ap.parse_args()
     gsv_adds = args.inputs if args.gsv_adds is None else args.gsv_adds
     sig_n = args.inputs // 5 if args.sig_epochs is None else args.sig_epochs
@@ -359,6 +335,9 @@ def main() -> int:
         load_gsv_core(args.gsv_core)
     if args.sig_core:
         load_sig_core(args.sig_core)
+    for spec in args.twin_core:
+        name, _, path = spec.partition("=")
+        TWIN_LOADERS[name](path)
     if args.native_diff:
         t0 = time.perf_counter()
         n, bad, examples = native_diff(args.inputs, args.seed)
@@ -383,7 +362,8 @@ def main() -> int:
         t0 = time.perf_counter()
         n, calls, sbad, examples = sig_diff(sig_n, args.seed)
         _twin_results("SignalStats loops", "calls", calls, f"{calls:,} ({n:,} epochs)", 300_000, sbad, examples, t0)
-        return 1 if bad or gbad or sbad else 0
+        lbad = later_twins(sig_n, args.seed)
+        return 1 if bad or gbad or sbad or lbad else 0
     rng = random.Random(args.seed)
     base = BASE + sim_base()
     p = Pipeline(source="fuzz")

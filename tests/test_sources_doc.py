@@ -16,7 +16,7 @@ SOURCES = ROOT / "docs" / "sources.md"
 CITE = re.compile(r"docs/sources\.md#([\w-]+)")
 # the old, outside sources file; built from parts so this file does not cite it itself
 OUTSIDE = "REFERENCES" + ".md"
-TEXT_SUFFIXES = {".py", ".md", ".toml", ".json", ".txt", ".c", ".tcss", ".cfg", ".ini", ".yml", ".yaml", ""}
+TEXT_SUFFIXES = {".py", ".md", ".toml", ".json", ".txt", ".c", ".h", ".tcss", ".cfg", ".ini", ".yml", ".yaml", ""}
 SKIP_DIRS = {".git", ".venv", "build", "dist", "__pycache__", ".pytest_cache", ".ruff_cache", ".hypothesis"}
 
 

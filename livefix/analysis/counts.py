@@ -10,12 +10,40 @@ given for at least one signal; "used" is the epoch's used set (GSA lists, livefi
 
 from __future__ import annotations
 
+import importlib
+import os
+from types import ModuleType
 from typing import Any
 
-from livefix.state.epoch import Epoch
+from livefix.state.epoch import Epoch, SatObs
 
 KINDS = ("in_view", "tracked", "used")
 ALL = "all"  # the key of the totals over every constellation
+CORE_API = 1  # the interface of livefix.analysis._epochcore spoken here and in trend.py, sky.py
+
+
+def load_core(configure: str, *args: Any) -> ModuleType | None:
+    """The built C passes (livefix/analysis/_epochcore.c, shared by counts, trend and sky) configured
+    by their function `configure` with args, or None (not built, another interface, args refused).
+    Imported by name: a static import would make a circle of livefix.analysis in the layer test."""
+    try:
+        core = importlib.import_module("livefix.analysis._epochcore")  # built by setup.py
+        if getattr(core, "API", None) != CORE_API:
+            return None
+        getattr(core, configure)(*args)
+    except (ImportError, AttributeError, TypeError, ValueError, OverflowError):
+        return None
+    return core
+
+
+def pick_core(core: ModuleType | None, native: bool | None) -> ModuleType | None:
+    """native None: core unless LIVEFIX_PURE is "1"; True: core, or RuntimeError when it is not built
+    (tests); False: None, the Python code."""
+    if native is None:
+        native = os.environ.get("LIVEFIX_PURE") != "1"
+    elif native and core is None:
+        raise RuntimeError("the C core livefix.analysis._epochcore is not built")
+    return core if native else None
 
 
 def _kth(hist: dict[int, int], k: int) -> int:
@@ -61,13 +89,18 @@ def epoch_counts(ep: Epoch) -> dict[str, tuple[int, int, int]]:
     return out
 
 
+_CORE = load_core("configure_counts", SatObs, Epoch, ALL)
+
+
 class SatCounts:
     """Per-system histograms of the counts of satellites in view, tracked and used per epoch.
 
     Epochs count from the first one with satellites in view (GSV): before it, a count of 0 would
     say nothing about the site; a system first seen later counts 0 for the epochs before."""
 
-    def __init__(self) -> None:
+    def __init__(self, native: bool | None = None) -> None:
+        """native: epoch_counts in C (pick_core: None as LIVEFIX_PURE says)."""
+        self._core = pick_core(_CORE, native)
         self.reset()
 
     def reset(self) -> None:
@@ -84,7 +117,10 @@ class SatCounts:
             if not self._run and not self.epochs and not sats:
                 return  # no GSV set yet: a count of 0 in view would say nothing about the site
             self._sats, self._used = sats, used
-            counts = epoch_counts(ep)
+            core = self._core
+            counts = None if core is None else core.counts(ep)  # None: values left to the Python code
+            if counts is None:
+                counts = epoch_counts(ep)
             if counts != self._cur:
                 self._flush()
                 self._cur = counts

@@ -3,8 +3,10 @@
 Why compute our own: a reported DOP alone cannot show a receiver that uses odd satellites, and a
 computed DOP lets installers compare spots even when the receiver prints no GSA.
 
-Geometry: one row per used (system, prn) with azimuth/elevation; livefix.geodesy.dop with one
-receiver-clock column per constellation (a multi-GNSS receiver estimates inter-system biases).
+Geometry: one row per used (system, prn) with azimuth/elevation; the model of livefix.geodesy.dop,
+one receiver-clock column per constellation (a multi-GNSS receiver estimates inter-system biases),
+solved in closed form by livefix.analysis.dopsolve (in C when built: bit-identical, no numpy calls
+on the tiny matrices).
 Receivers differ: some solve with a single clock, some apply another elevation mask or weight by
 C/N0, so an epoch counts as a disagreement only when the reported HDOP or PDOP differs from BOTH
 our per-system-clock and our single-clock values by more than 20 % and more than 0.3 (common
@@ -21,10 +23,11 @@ they are counted and listed here, never dropped silently.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
+from livefix.analysis.dopsolve import make_solver, pick_core
 from livefix.analysis.streaming import LogHistogram
-from livefix.geodesy import dop as geometry_dop
 from livefix.state.epoch import Epoch
 
 KEYS = ("gdop", "pdop", "hdop", "vdop", "tdop")
@@ -63,6 +66,24 @@ def _used(ep: Epoch) -> tuple[tuple[tuple[float, float, str], ...], int]:
     return tuple([seen[k] for k in sorted(seen)]), len(flagged)
 
 
+Used = Callable[[Epoch], "tuple[tuple[tuple[float, float, str], ...], int]"]
+
+
+def make_used(native: bool | None = None) -> Used:
+    """_used in C when picked (dopsolve.pick_core: same tuples, same float objects; odd epochs handed
+    over to _used), else _used itself."""
+    core = pick_core(native)
+    if core is None:
+        return _used
+    fast = core.used
+
+    def used_native(ep: Epoch) -> tuple[tuple[tuple[float, float, str], ...], int]:
+        r = fast(ep.sats, ep.used_prns)
+        return _used(ep) if r is NotImplemented else r  # type: ignore[no-any-return]
+
+    return used_native
+
+
 def _differs(rep: float | None, calc: dict[str, float] | None, key: str) -> bool:
     if rep is None or calc is None:
         return False
@@ -71,7 +92,11 @@ def _differs(rep: float | None, calc: dict[str, float] | None, key: str) -> bool
 
 
 class DopStats:
-    def __init__(self) -> None:
+    def __init__(self, native: bool | None = None) -> None:
+        """native: the solve and the used-satellite pass in C (dopsolve.pick_core: None as
+        LIVEFIX_PURE says)."""
+        self._solve = make_solver(native)
+        self._used_of = make_used(native)
         self.reset()
 
     def reset(self) -> None:
@@ -150,7 +175,7 @@ class DopStats:
         sats, used = ep.sats, ep.used_prns
         if sats is not self._sats or (used is not self._used and used != self._used):  # reused tuples
             # the state model hands out a new tuple only on a change
-            self._geo, self.current_used_listed = _used(ep)
+            self._geo, self.current_used_listed = self._used_of(ep)
             self._sats, self._used = sats, used
             if self._geo != self._cache_key:  # az/el are whole degrees and change slowly: cache
                 self._new_geometry(self._geo)
@@ -182,9 +207,10 @@ class DopStats:
         if len(geo) >= 4:
             az = [g[0] for g in geo]
             el = [g[1] for g in geo]
-            self.current_calc = geometry_dop(az, el, [g[2] for g in geo])
-            single_too = len({g[2] for g in geo}) > 1  # one constellation: both models agree
-            self._single = geometry_dop(az, el) if single_too else self.current_calc
+            systems = [g[2] for g in geo]
+            self.current_calc = self._solve(az, el, systems)
+            single_too = len(set(systems)) > 1  # one constellation: both models agree
+            self._single = self._solve(az, el) if single_too else self.current_calc
         else:
             self.current_calc = self._single = None
         self._calc_bins = [(h[k], b) for h, calc in ((self.hist_calc, self.current_calc),

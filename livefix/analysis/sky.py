@@ -23,7 +23,8 @@ from operator import attrgetter, countOf, itemgetter
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
-from livefix.state.epoch import Epoch
+from livefix.analysis.counts import load_core, pick_core
+from livefix.state.epoch import Epoch, SatObs
 
 AZ_STEP = 10
 EL_STEP = 5
@@ -41,11 +42,15 @@ _C = itemgetter(2)
 # an azimuth, i.e. min(el // EL_STEP, N_EL - 1) * N_AZ and az // AZ_STEP as tables
 _ROW = [min(el // EL_STEP, N_EL - 1) * N_AZ for el in range(91)]
 _COL = [az // AZ_STEP for az in range(360)]
+# on_epoch in C (livefix/analysis/_epochcore.c), with the tables and constants above
+_CORE = load_core("configure_sky", SatObs, Epoch, _ROW, _COL, SAMPLE_S, MIN_TRACKED, MAX_SEEN)
 
 
 class SkyMap:
-    def __init__(self, config: AnalysisConfig) -> None:
+    def __init__(self, config: AnalysisConfig, native: bool | None = None) -> None:
+        """native: on_epoch in C (counts.pick_core: None as LIVEFIX_PURE says)."""
         self.config = config
+        self._core = pick_core(_CORE, native)
         self.reset()
 
     def reset(self) -> None:
@@ -72,6 +77,9 @@ class SkyMap:
                     self.seen_overflow += 1
 
     def on_epoch(self, ep: Epoch, suspend: bool = False) -> None:
+        core = self._core
+        if core is not None and core.sky_epoch(self, ep, suspend):
+            return  # done in C; False: what is left (odd values) is the code below's, seen counted or not
         if ep.sats is not self._seen_of:  # the same tuple while the sky is unchanged
             self._count_seen(ep.sats)
         dt = ep.mono - self._t

@@ -15,16 +15,20 @@ from __future__ import annotations
 from math import isfinite
 from typing import Any
 
+from livefix.analysis.counts import load_core, pick_core
 from livefix.analysis.skytrack import SkyTracks
 
 MAX_POINTS = 600
 FIELDS = ("h_err_m", "cn0_mean", "sats_used", "lat", "lon", "h")
 _DIGITS = (4, 4, 4, 9, 9, 4)
 _BUCKET_LEN = 2 + 2 * len(FIELDS)  # n, Σt, then (sum, n) per field
+_CORE = load_core("configure_trend", _BUCKET_LEN)  # add_values in C (livefix/analysis/_epochcore.c)
 
 
 class Trend:
-    def __init__(self, max_points: int = MAX_POINTS, width_s: float = 1.0) -> None:
+    def __init__(self, max_points: int = MAX_POINTS, width_s: float = 1.0, native: bool | None = None) -> None:
+        """native: add_values in C (counts.pick_core: None as LIVEFIX_PURE says)."""
+        self._core = pick_core(_CORE, native)
         self.max_points = max_points
         self.width0 = width_s
         self.sky_tracks = SkyTracks()
@@ -46,6 +50,9 @@ class Trend:
                    sats_used: float | None, lat: float | None = None, lon: float | None = None,
                    h: float | None = None) -> None:
         """add() with the FIELDS in order, positionally (the per-epoch path: no keyword dict)."""
+        core = self._core
+        if core is not None and core.trend_add(self, mono, wall_iso, h_err_m, cn0_mean, sats_used, lat, lon, h):
+            return  # done in C; False: nothing changed, odd values or a merge are the code below's
         t0 = self.t0
         if t0 is None:
             self.t0 = t0 = mono

@@ -20,7 +20,7 @@ from livefix.state.epoch import Epoch, Event, SatObs, make_epoch
 from livefix.state.gsv import make_assembler
 from livefix.state.sky import Sky
 from livefix.state.texts import ReceiverTexts
-from livefix.state.used import UsedTracker, solution_gsa
+from livefix.state.used import make_used_tracker, solution_gsa
 
 # Sentence types whose time field is the UTC time of a position fix: only these open and close
 # epochs (NMEA 0183: GGA, RMC, GNS and GLL report a fix "as of" that time). ZDA is a clock/date
@@ -94,7 +94,7 @@ class StateModel:
         self._open: _Open | None = None
         self._clock = UtcClock()
         self._gsv = make_assembler()  # the C twin when built (livefix/state/_gsvcore.c)
-        self._gsa = UsedTracker()  # GSA used lists of the open epoch
+        self._gsa = make_used_tracker()  # GSA used lists of the open epoch (the C twin when built)
         self._sky = Sky(sky_timeout_s)
         self._used: frozenset[tuple[str, int]] = frozenset()
         self._used_sorted: tuple[tuple[str, int], ...] = ()

@@ -14,8 +14,10 @@ block fits is never dropped silently: it is returned as unknown for the epoch an
 
 from __future__ import annotations
 
+import importlib
+import os
 from collections.abc import Callable, Mapping
-from types import MappingProxyType
+from types import MappingProxyType, ModuleType
 from typing import Any
 
 from livefix.state.epoch import SYSTEM_ID, TALKER_SYSTEM
@@ -28,6 +30,9 @@ _SVIDS = tuple(f"svid_{i:02d}" for i in range(1, 13))
 # the last used list this long (host seconds; as long as the sky keeps a silent GSV set, common practice).
 USED_HOLD_S = 5.0
 MAX_UNKNOWN = 32  # distinct unknown labels kept per epoch
+# Memo caps: a day's distinct GSA lines are far fewer; a flood of new ones only clears the memo.
+BY_VALUE_MAX = 4096  # classifications by field values
+BY_ID_MAX = 1024  # classifications by identity of the decoder's read-only field mappings
 
 
 PER_SYSTEM_DOPS = "per_system_dops"  # marks an epoch whose GSA sentences gave different DOPs
@@ -130,11 +135,11 @@ class UsedTracker:
             g = self._by_value.get(key)
             if g is None:
                 g = classify(sid, talker, key[2])
-                if len(self._by_value) >= 4096:
+                if len(self._by_value) >= BY_VALUE_MAX:
                     self._by_value.clear()
                 self._by_value[key] = g
             if f.__class__ is MappingProxyType:  # read-only: same line, same talker, same result
-                if len(self._by_id) >= 1024:
+                if len(self._by_id) >= BY_ID_MAX:
                     self._by_id.clear()
                 self._by_id[id(f)] = (f, g)
         if g.open:
@@ -179,3 +184,32 @@ class UsedTracker:
         self.unknown = tuple(sorted(set(self._unknown))) if self._unknown else ()
         self._unknown = []
         return out
+
+
+def _built_core() -> ModuleType | None:
+    """The C twin (livefix/state/_usedcore.c) when it was built with this module's caps, else None
+    (a build older than a change of caps here is not used; tests/state/test_used_native.py fails on it)."""
+    try:
+        # the extension itself, not the livefix.state package (whose __init__ imports the model)
+        core = importlib.import_module("livefix.state._usedcore")  # built by setup.py
+    except ImportError:
+        return None
+    caps = (core.BY_VALUE_MAX, core.BY_ID_MAX, core.MAX_UNKNOWN, core.USED_HOLD_S)
+    return core if caps == (BY_VALUE_MAX, BY_ID_MAX, MAX_UNKNOWN, USED_HOLD_S) else None  # a stale build
+
+
+_CORE = _built_core()
+
+
+def make_used_tracker(native: bool | None = None) -> UsedTracker:
+    """A used-set tracker: the C twin when built (same results, attributes and object identities,
+    several times faster per GSA line), else UsedTracker, the reference. native None: the C twin
+    unless LIVEFIX_PURE is "1" (as livefix.framing.native_core()); True: the C twin or RuntimeError
+    (tests); False: the reference."""
+    if native is None:
+        native = _CORE is not None and os.environ.get("LIVEFIX_PURE") != "1"
+    elif native and _CORE is None:
+        raise RuntimeError("the C core livefix.state._usedcore is not built (or built with other caps)")
+    if native:
+        return _CORE.UsedTracker(classify, place)  # type: ignore[union-attr, no-any-return]
+    return UsedTracker()

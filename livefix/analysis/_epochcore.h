@@ -1,0 +1,125 @@
+/* livefix.analysis._epochcore: the declarations its source files share (private to the module).
+ *
+ * The module is built from _epochcore.c (the module and the configure_* functions: the types,
+ * tables and constants), _epochcore_counts.c (counts()), _epochcore_trend.c (trend_add()) and
+ * _epochcore_sky.c (sky_epoch()). The value checks and list updates the passes share are static
+ * inline here; everything else shared has the ep_ prefix and hidden visibility, so the extension
+ * exports nothing but its init function.
+ */
+#ifndef LIVEFIX_EPOCHCORE_H
+#define LIVEFIX_EPOCHCORE_H
+
+#define PY_SSIZE_T_CLEAN
+#include <Python.h>
+#include <math.h>
+
+#if defined(__GNUC__) && !defined(_WIN32)
+#define EP_HIDDEN __attribute__((visibility("hidden")))
+#else
+#define EP_HIDDEN
+#endif
+
+#define EXACT_INT_MAX 9007199254740992LL /* 2**53: ints up to this convert to double exactly */
+#define COUNT_MAX (1LL << 62)            /* counters kept in C stay far from overflow */
+
+enum { S_SYSTEM, S_PRN, S_ELEV, S_AZIM, S_CN0, S_USED, S_COUNT };
+enum { E_MONO, E_QUALITY, E_SATS, E_USED_PRNS, E_COUNT };
+
+/* module state, set by the configure_* functions of _epochcore.c (the types and constants of the
+ * Python modules) */
+EP_HIDDEN extern PyTypeObject *ep_sat_type, *ep_epoch_type;
+EP_HIDDEN extern Py_ssize_t ep_sat_off[S_COUNT], ep_epoch_off[E_COUNT];
+EP_HIDDEN extern PyObject *ep_all_key;                  /* counts.ALL */
+EP_HIDDEN extern Py_ssize_t ep_bucket_len;              /* trend._BUCKET_LEN, 0 = not configured */
+EP_HIDDEN extern long ep_sky_row[91], ep_sky_col[360];  /* sky._ROW, sky._COL */
+EP_HIDDEN extern double ep_sample_s;                    /* sky.SAMPLE_S */
+EP_HIDDEN extern long long ep_min_tracked, ep_max_seen; /* sky.MIN_TRACKED, sky.MAX_SEEN */
+EP_HIDDEN extern int ep_sky_ready;
+/* attribute names (interned once, by the module init) */
+EP_HIDDEN extern PyObject *ep_s_t0, *ep_s_t0_iso, *ep_s_width, *ep_s_max_points, *ep_s_buckets, *ep_s_origin;
+EP_HIDDEN extern PyObject *ep_s_seen_of, *ep_s_seen, *ep_s_seen_overflow, *ep_s_t, *ep_s_tracked, *ep_s_untracked,
+    *ep_s_cn0;
+
+EP_HIDDEN int ep_ready(int part); /* part, or 0 with RuntimeError when that part was not configured */
+
+/* the passes: _epochcore_counts.c, _epochcore_trend.c, _epochcore_sky.c */
+EP_HIDDEN PyObject *ep_counts(PyObject *mod, PyObject *ep);
+EP_HIDDEN PyObject *ep_trend_add(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
+EP_HIDDEN PyObject *ep_sky_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
+
+/* ---- values ---- */
+
+/* An exact int that converts to double exactly, or an exact float: 1 and its value, else 0. */
+static inline int num_of(PyObject *v, double *out)
+{
+    if (PyFloat_CheckExact(v)) {
+        *out = PyFloat_AS_DOUBLE(v);
+        return 1;
+    }
+    if (PyLong_CheckExact(v)) {
+        int over = 0;
+        long long x = PyLong_AsLongLongAndOverflow(v, &over);
+        if (over || x > EXACT_INT_MAX || x < -EXACT_INT_MAX)
+            return 0;
+        *out = (double)x;
+        return 1;
+    }
+    return 0;
+}
+
+/* An exact int in [-COUNT_MAX, COUNT_MAX]: 1 and its value, else 0. */
+static inline int count_of(PyObject *v, long long *out)
+{
+    if (!PyLong_CheckExact(v))
+        return 0;
+    int over = 0;
+    long long x = PyLong_AsLongLongAndOverflow(v, &over);
+    if (over || x > COUNT_MAX || x < -COUNT_MAX)
+        return 0;
+    *out = x;
+    return 1;
+}
+
+static inline PyObject *slot(PyObject *o, Py_ssize_t off)
+{
+    return *(PyObject **)((char *)o + off);
+}
+
+/* list[k] = v (v a new reference, stolen); the old item is a float, an int or None, so dropping it
+ * runs no Python code. -1 when v is NULL (no memory). */
+static inline int put(PyObject *list, Py_ssize_t k, PyObject *v)
+{
+    if (v == NULL)
+        return -1;
+    PyObject *old = PyList_GET_ITEM(list, k);
+    PyList_SET_ITEM(list, k, v);
+    Py_DECREF(old);
+    return 0;
+}
+
+static inline int add_float(PyObject *list, Py_ssize_t k, double x)
+{
+    return put(list, k, PyFloat_FromDouble(PyFloat_AS_DOUBLE(PyList_GET_ITEM(list, k)) + x));
+}
+
+static inline int add_one(PyObject *list, Py_ssize_t k)
+{
+    return put(list, k, PyLong_FromLongLong(PyLong_AsLongLong(PyList_GET_ITEM(list, k)) + 1));
+}
+
+/* A (system, prn) key of exact str and exact int. */
+static inline int key_ok(PyObject *system, PyObject *prn)
+{
+    return system != NULL && prn != NULL && PyUnicode_CheckExact(system) && PyLong_CheckExact(prn);
+}
+
+/* An attribute (new reference), or NULL with no error set: the Python code then meets it itself. */
+static inline PyObject *attr(PyObject *o, PyObject *name)
+{
+    PyObject *v = PyObject_GetAttr(o, name);
+    if (v == NULL)
+        PyErr_Clear();
+    return v;
+}
+
+#endif

@@ -1,0 +1,140 @@
+/* livefix.analysis._sigcore: the declarations its source files share (private to the module).
+ *
+ * The module is built from _sigcore.c (the module and configure(): the satellite type, tables and
+ * constants) and _sigcore_loops.c (accumulate() and baselines()). The value checks both loops run
+ * per satellite are static inline here; everything else shared has the sig_ prefix and hidden
+ * visibility, so the extension exports nothing but its init function.
+ */
+#ifndef LIVEFIX_SIGCORE_H
+#define LIVEFIX_SIGCORE_H
+
+#define PY_SSIZE_T_CLEAN
+#include <Python.h>
+#include <math.h>
+#include <string.h>
+
+#if defined(__GNUC__) && !defined(_WIN32)
+#define SIG_HIDDEN __attribute__((visibility("hidden")))
+#else
+#define SIG_HIDDEN
+#endif
+
+#define EXACT_INT_MAX 9007199254740992LL /* 2**53: ints up to this convert to double exactly */
+
+enum { F_SYSTEM, F_PRN, F_SIGNAL, F_ELEV, F_AZIM, F_CN0, F_COUNT };
+
+/* set once by configure() (_sigcore.c) */
+SIG_HIDDEN extern int sig_configured;
+SIG_HIDDEN extern PyTypeObject *sig_sat_type;          /* livefix.state.epoch.SatObs (held) */
+SIG_HIDDEN extern Py_ssize_t sig_field_off[F_COUNT];   /* slot offsets of its fields */
+SIG_HIDDEN extern double sig_sin_tab[91];
+SIG_HIDDEN extern Py_ssize_t sig_band_tab[91], sig_cell_el_tab[91];
+SIG_HIDDEN extern long long sig_sector_az, sig_base_min_n;
+SIG_HIDDEN extern double sig_base_tau_s, sig_lost_s, sig_lost_cn0;
+
+SIG_HIDDEN int sig_need_config(void);  /* 0 with RuntimeError when configure() was not called */
+
+/* _sigcore_loops.c */
+SIG_HIDDEN PyObject *sig_accumulate(PyObject *mod, PyObject *args);
+SIG_HIDDEN PyObject *sig_baselines(PyObject *mod, PyObject *args);
+
+/* ---- values ---- */
+
+/* An exact int that converts to double exactly, or an exact float: 1 and its value, else 0. */
+static inline int num_of(PyObject *v, double *out)
+{
+    if (PyFloat_CheckExact(v)) {
+        *out = PyFloat_AS_DOUBLE(v);
+        return 1;
+    }
+    if (PyLong_CheckExact(v)) {
+        int over = 0;
+        long long x = PyLong_AsLongLongAndOverflow(v, &over);
+        if (over || x > EXACT_INT_MAX || x < -EXACT_INT_MAX)
+            return 0;
+        *out = (double)x;
+        return 1;
+    }
+    return 0;
+}
+
+/* An exact int that fits a long long with room for + 1: 1 and its value, else 0. */
+static inline int count_of(PyObject *v, long long *out)
+{
+    if (!PyLong_CheckExact(v))
+        return 0;
+    int over = 0;
+    long long x = PyLong_AsLongLongAndOverflow(v, &over);
+    if (over || x == LLONG_MAX)
+        return 0;
+    *out = x;
+    return 1;
+}
+
+/* A list of at least n items, the first n of exact types: 'f' float, 'i' int (a count). */
+static inline int entry_ok(PyObject *e, const char *kinds)
+{
+    Py_ssize_t n = (Py_ssize_t)strlen(kinds);
+    if (!PyList_CheckExact(e) || PyList_GET_SIZE(e) < n)
+        return 0;
+    for (Py_ssize_t k = 0; k < n; k++) {
+        PyObject *x = PyList_GET_ITEM(e, k);
+        long long dummy;
+        if (kinds[k] == 'f' ? !PyFloat_CheckExact(x) : !count_of(x, &dummy))
+            return 0;
+    }
+    return 1;
+}
+
+/* list[k] = v (v a new reference, stolen); the old item is a float or an int, so dropping it runs
+ * no Python code. -1 when v is NULL (no memory). */
+static inline int put(PyObject *list, Py_ssize_t k, PyObject *v)
+{
+    if (v == NULL)
+        return -1;
+    PyObject *old = PyList_GET_ITEM(list, k);
+    PyList_SET_ITEM(list, k, v);
+    Py_DECREF(old);
+    return 0;
+}
+
+static inline int add_float(PyObject *list, Py_ssize_t k, double x)
+{
+    return put(list, k, PyFloat_FromDouble(PyFloat_AS_DOUBLE(PyList_GET_ITEM(list, k)) + x));
+}
+
+static inline int add_one(PyObject *list, Py_ssize_t k)
+{
+    return put(list, k, PyLong_FromLongLong(PyLong_AsLongLong(PyList_GET_ITEM(list, k)) + 1));
+}
+
+static inline PyObject *slot(PyObject *s, int f)
+{
+    return *(PyObject **)((char *)s + sig_field_off[f]);
+}
+
+/* The fields of a SatObs (borrowed), or 0 when s is something else or a slot is unset. */
+static inline int fields_of(PyObject *s, PyObject **v)
+{
+    if (Py_TYPE(s) != sig_sat_type)
+        return 0;
+    for (int f = 0; f < F_COUNT; f++)
+        if ((v[f] = slot(s, f)) == NULL)
+            return 0;
+    return 1;
+}
+
+/* Python's float `x % 360` (floor modulo: the sign of the divisor), then int(); x finite. */
+static inline long long az_cell(double x)
+{
+    double m = fmod(x, 360.0);
+    if (m != 0.0) {
+        if (m < 0.0)
+            m += 360.0;
+    }
+    else
+        m = 0.0; /* copysign(0, 360) */
+    return (long long)m / sig_sector_az;
+}
+
+#endif
