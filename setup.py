@@ -55,29 +55,29 @@ C_CORES = {
     "livefix.state._gsvcore": (
         ["livefix/state/_gsvcore.c", "livefix/state/_gsvcore_add.c", "livefix/state/_gsvcore_sets.c",
          "livefix/state/_gsvcore_store.c"],
-        ["livefix/state/_gsvcore.h"],
+        ["livefix/state/_gsvcore.h", "livefix/_corekit.h"],
     ),
     # SignalStats' satellite loops (livefix/analysis/signal.py keeps the reference, picks this one when built)
     "livefix.analysis._sigcore": (
         ["livefix/analysis/_sigcore.c", "livefix/analysis/_sigcore_loops.c"],
-        ["livefix/analysis/_sigcore.h"],
+        ["livefix/analysis/_sigcore.h", "livefix/_corekit.h"],
     ),
     # GSA used-set tracking (livefix/state/used.py keeps the reference and picks this one when built)
     "livefix.state._usedcore": (
         ["livefix/state/_usedcore.c", "livefix/state/_usedcore_add.c", "livefix/state/_usedcore_close.c"],
-        ["livefix/state/_usedcore.h"],
+        ["livefix/state/_usedcore.h", "livefix/_corekit.h"],
     ),
     # DopStats' closed-form DOP solve and used-satellite pass (analysis/dopsolve.py and dop.py keep the references)
     "livefix.analysis._dopcore": (
         ["livefix/analysis/_dopcore.c", "livefix/analysis/_dopused.c"],
-        ["livefix/analysis/_dopcore.h"],
+        ["livefix/analysis/_dopcore.h", "livefix/_corekit.h"],
     ),
     # per-epoch passes of the satellite counts, the trend and the sky map (analysis/counts.py, trend.py
     # and sky.py keep the references)
     "livefix.analysis._epochcore": (
         ["livefix/analysis/_epochcore.c", "livefix/analysis/_epochcore_counts.c",
          "livefix/analysis/_epochcore_trend.c", "livefix/analysis/_epochcore_sky.c"],
-        ["livefix/analysis/_epochcore.h"],
+        ["livefix/analysis/_epochcore.h", "livefix/_corekit.h"],
     ),
 }
 

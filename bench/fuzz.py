@@ -25,7 +25,6 @@ import sys
 import time
 import traceback
 from pathlib import Path
-from types import ModuleType
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 sys.path.insert(0, str(Path(__file__).resolve().parent))  # fuzz_twins, fuzz_asan
@@ -201,26 +200,22 @@ from fuzz_asan import asan_run  # noqa: E402
 from fuzz_dop import dop_diff, load_dop_core, used_diff  # noqa: E402
 from fuzz_epochcore import diff as epochcore_diff  # noqa: E402
 from fuzz_epochcore import load_epoch_core  # noqa: E402
-from fuzz_twins import gsv_diff, gsv_parts, sig_diff, sig_epochs, sig_pair, sig_state  # noqa: E402, F401  (tests read them here)
+from fuzz_twins import (  # noqa: E402, F401  (tests read them here)
+    gsv_diff,
+    gsv_parts,
+    load_ext,  # noqa: E402
+    sig_diff,
+    sig_epochs,
+    sig_pair,
+    sig_state,
+)
 from fuzz_used import load_used_core  # noqa: E402
 from fuzz_used import used_diff as tracker_diff  # noqa: E402
 
 
-def _load_ext(name: str, path: str) -> ModuleType:
-    """The extension module built at `path`, imported as `name` (and registered in sys.modules)."""
-    import importlib.util
-
-    spec = importlib.util.spec_from_file_location(name, path)
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    sys.modules[name] = mod
-    return mod
-
-
 def load_core(path: str) -> None:
     """Use the C core built at `path` (the sanitizer build) as livefix._native in this process."""
-    mod = _load_ext("livefix._native", path)
+    mod = load_ext("livefix._native", path)
     import livefix
     import livefix.framing as framing  # imported above (Pipeline): its Framer must use this build too
 
@@ -235,7 +230,7 @@ def load_gsv_core(path: str) -> None:
     import livefix.state
     from livefix.state import gsv  # imported above (Pipeline): make_assembler must use this build
 
-    mod = _load_ext("livefix.state._gsvcore", path)
+    mod = load_ext("livefix.state._gsvcore", path)
     livefix.state._gsvcore = mod  # type: ignore[attr-defined]
     gsv._CORE = mod
 
@@ -245,7 +240,7 @@ def load_sig_core(path: str) -> None:
     import livefix.analysis
     from livefix.analysis import signal, signal_native
 
-    mod = _load_ext("livefix.analysis._sigcore", path)
+    mod = load_ext("livefix.analysis._sigcore", path)
     livefix.analysis._sigcore = mod  # type: ignore[attr-defined]
     if not signal_native.configure(mod, signal._CORE_ARGS):
         raise RuntimeError(f"{path}: not a usable build of livefix.analysis._sigcore")

@@ -29,7 +29,8 @@ def c_cores() -> dict[str, tuple[list[str], list[str]]]:
 # the cores with their own options in fuzz.py; every other core goes by --twin-core NAME=PATH
 FIRST = ("livefix._native", "livefix.state._gsvcore", "livefix.analysis._sigcore")
 # leak stacks naming one of these are the C cores' own (every C source and header of every core)
-C_FILES = tuple(Path(f).name for sources, headers in c_cores().values() for f in sources + headers)
+# (dict.fromkeys: a header several cores share, livefix/_corekit.h, is one file)
+C_FILES = tuple(dict.fromkeys(Path(f).name for sources, headers in c_cores().values() for f in sources + headers))
 
 
 def asan_run(inputs: int, seed: int, gsv_adds: int, sig_n: int) -> int:

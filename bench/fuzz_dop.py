@@ -13,7 +13,6 @@ None, or the exception type.
 from __future__ import annotations
 
 import argparse
-import importlib.util
 import math
 import random
 import sys
@@ -23,6 +22,8 @@ from pathlib import Path
 from types import ModuleType
 
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
+
+from fuzz_twins import load_ext  # noqa: E402
 
 from livefix.analysis import dop, dopsolve  # noqa: E402
 from livefix.state.epoch import Epoch, SatObs  # noqa: E402
@@ -239,11 +240,7 @@ def used_diff(epochs: int, seed: int = 1, core: ModuleType | None = None,
 
 def load_dop_core(path: str) -> ModuleType:
     """The build at `path` (e.g. the sanitizer build), used as livefix.analysis._dopcore here."""
-    spec = importlib.util.spec_from_file_location("livefix.analysis._dopcore", path)
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    sys.modules["livefix.analysis._dopcore"] = mod
+    mod = load_ext("livefix.analysis._dopcore", path)
     mod.configure(SatObs)
     dopsolve._CORE = mod
     return mod

@@ -19,6 +19,8 @@ from pathlib import Path
 from types import ModuleType, SimpleNamespace
 from typing import Any
 
+from fuzz_twins import load_ext
+
 SYSTEMS = ["G", "G", "R", "E", "C", "J", "S", "I"]
 CN0_ODD = [None, 0, 0.0, -0.0, -5, -3.5, 0.25, 45.25, float("nan"), float("inf"), 2**53 + 1, 2**60, True, "40"]
 ELEV_ODD = [None, -1, 91, 10**20, -(10**20), 45.0, 0.0, 90.0, -0.5, 90.5, float("nan"), True, "30"]
@@ -211,16 +213,10 @@ def diff(n: int, seed: int = 1, odd: float = 0.02) -> tuple[int, int, list[str]]
 
 def load_epoch_core(path: str) -> ModuleType:
     """Use the build at `path` (e.g. the sanitizer build) as livefix.analysis._epochcore everywhere."""
-    import importlib.util
-
     import livefix.analysis
     from livefix.analysis import counts, sky, trend
 
-    spec = importlib.util.spec_from_file_location("livefix.analysis._epochcore", path)
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    sys.modules["livefix.analysis._epochcore"] = mod
+    mod = load_ext("livefix.analysis._epochcore", path)
     livefix.analysis._epochcore = mod  # type: ignore[attr-defined]
     counts._CORE = counts.load_core("configure_counts", counts.SatObs, counts.Epoch, counts.ALL)
     trend._CORE = counts.load_core("configure_trend", trend._BUCKET_LEN)

@@ -6,10 +6,23 @@ satellite loops (livefix/analysis/_sigcore.c vs livefix/analysis/signal.py). Det
 
 from __future__ import annotations
 
+import importlib.util
 import random
+import sys
 from collections.abc import Iterator, Mapping
-from types import MappingProxyType
+from types import MappingProxyType, ModuleType
 from typing import Any
+
+
+def load_ext(name: str, path: str) -> ModuleType:
+    """The extension module built at `path` (e.g. the sanitizer build), imported as `name` (and
+    registered in sys.modules): the fuzzers' way to put a build in place of the installed one."""
+    spec = importlib.util.spec_from_file_location(name, path)
+    assert spec is not None and spec.loader is not None
+    mod = importlib.util.module_from_spec(spec)
+    spec.loader.exec_module(mod)
+    sys.modules[name] = mod
+    return mod
 
 # ---- GSV parts for the set assembler differential (livefix/state/_gsvcore.c vs gsv.GsvAssembler) ----
 GSV_TALKERS = ["GP", "GP", "GL", "GA", "GB", "BD", "GQ", "GI", "GN", "GN", "XX", ""]

@@ -10,9 +10,11 @@ returned objects; used_diff() runs N calls and counts disagreements.
 from __future__ import annotations
 
 import random
-from collections.abc import Callable, Iterator, Mapping
+from collections.abc import Callable, Iterator
 from types import MappingProxyType
 from typing import Any
+
+from fuzz_twins import _Dict, _Fields, load_ext
 
 # System IDs as decoders give them (NMEA 0183 4.10/4.11: 1-6; "" when absent) and odd ones: digits
 # int() refuses ("\u00b2", 5000 digits), digits it reads ("\u0661" is 1), floats and bools equal to 1, huge values.
@@ -22,26 +24,6 @@ USED_TALKERS = ["GP", "GP", "GP", "GN", "GN", "GL", "GA", "GB", "GQ", "GI", "BD"
 USED_SVIDS: list[Any] = [*range(1, 97), *range(120, 159), *range(193, 264), *range(301, 337), *range(401, 464)]
 USED_ODD: list[Any] = ["", "", None, 0, -3, 97, 500, 10**30, -(10**30), 1.0, True, False, "12", float("nan")]
 _SVIDS = tuple(f"svid_{i:02d}" for i in range(1, 13))
-
-
-class _Fields(Mapping):
-    """A mapping that is neither a dict nor a read-only view: read through its own get()."""
-
-    def __init__(self, d: dict) -> None:
-        self._d = d
-
-    def __getitem__(self, k: str) -> object:
-        return self._d[k]
-
-    def __iter__(self) -> Iterator[str]:
-        return iter(self._d)
-
-    def __len__(self) -> int:
-        return len(self._d)
-
-
-class _Dict(dict):
-    pass
 
 
 def used_calls(rng: random.Random) -> Iterator[tuple]:
@@ -236,17 +218,10 @@ def used_diff(calls: int, seed: int = 1) -> tuple[int, int, list[str]]:
 
 def load_used_core(path: str) -> None:
     """Use the tracker built at `path` (the sanitizer build) as livefix.state._usedcore."""
-    import importlib.util
-    import sys
-
     import livefix.state
     from livefix.state import used
 
-    spec = importlib.util.spec_from_file_location("livefix.state._usedcore", path)
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    sys.modules["livefix.state._usedcore"] = mod
+    mod = load_ext("livefix.state._usedcore", path)
     livefix.state._usedcore = mod  # type: ignore[attr-defined]
     used._CORE = mod
 

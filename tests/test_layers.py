@@ -28,6 +28,7 @@ RANKS: dict[str, int] = {
     "livefix.refpoint": 0,
     "livefix.site": 0,
     "livefix.faults": 0,
+    "livefix.corepick": 0,
     # 1: the simulated receiver, a maker of bytes below the sources
     "livefix.sim": 1,
     # 2: byte sources, and the recording format they read and the reader thread writes

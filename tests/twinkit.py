@@ -8,8 +8,20 @@ from __future__ import annotations
 
 import functools
 import importlib.util
+import sys
+import threading
+from collections.abc import Iterator
 from pathlib import Path
 from types import ModuleType
+
+from livefix.decode import Rejected
+from livefix.decode.decoder import Decoder
+from livefix.framing import Framer
+from livefix.items import Chunk
+from livefix.sim import Scenario, SimReceiver
+from livefix.sources import open_source
+from livefix.state.epoch import Epoch
+from livefix.state.model import StateModel
 
 ROOT = Path(__file__).resolve().parents[1]
 # Public logs from real receivers; each file's repository, commit and licence are listed in
@@ -19,10 +31,48 @@ CORPUS_FILES = sorted(p.name for p in CORPUS.iterdir()) if CORPUS.is_dir() else 
 
 
 @functools.cache
-def bench_fuzz() -> ModuleType:
-    """bench/fuzz.py as a module (it also re-exports bench/fuzz_twins.py's generators)."""
-    spec = importlib.util.spec_from_file_location("livefix_bench_fuzz", ROOT / "bench" / "fuzz.py")
+def bench_module(stem: str) -> ModuleType:
+    """bench/<stem>.py as a module: the generators and comparisons `make fuzz` runs. Registered in
+    sys.modules first, as an import would, so its dataclasses can resolve their own module."""
+    spec = importlib.util.spec_from_file_location(f"livefix_bench_{stem}", ROOT / "bench" / f"{stem}.py")
     assert spec is not None and spec.loader is not None
+    if str(ROOT / "bench") not in sys.path:  # as running the script would: bench/ modules import each other
+        sys.path.insert(0, str(ROOT / "bench"))
     mod = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = mod
     spec.loader.exec_module(mod)
     return mod
+
+
+def bench_fuzz() -> ModuleType:
+    """bench/fuzz.py as a module (it also re-exports bench/fuzz_twins.py's generators)."""
+    return bench_module("fuzz")
+
+
+def corpus_epochs(path: Path) -> list[Epoch]:
+    """The epochs livefix makes of a log: its file source's timed chunks through Framer, Decoder and
+    StateModel."""
+    fr, dec, sm = Framer(), Decoder(), StateModel()
+    out: list[Epoch] = []
+    for it in open_source(str(path), speed=None).items(threading.Event()):
+        if type(it) is not Chunk:
+            continue
+        for ln in fr.feed(it.data):
+            msg = dec.decode(ln)
+            if type(msg) is not Rejected:
+                out += [e for e in sm.on_sentence(msg, it.mono, it.wall) if type(e) is Epoch]
+    return out + [e for e in sm.finish() if type(e) is Epoch]
+
+
+def sim_epochs(dialect: str, seconds: float) -> Iterator[Epoch]:
+    """The epochs of the simulated rooftop receiver (10 Hz, seed 1) in one dialect, made as live:
+    lazily, so a caller's state between epochs is what the analyzer would have."""
+    rx = SimReceiver(Scenario.load("rooftop"), rate_hz=10, seed=1, dialect=dialect)
+    fr, dec, sm = Framer(), Decoder(), StateModel()
+    for mono, chunk in rx.epochs(seconds):
+        for ln in fr.feed(chunk):
+            msg = dec.decode(ln)
+            if type(msg) is not Rejected:
+                for ep in sm.on_sentence(msg, mono, 1.7e9 + mono):
+                    if type(ep) is Epoch:
+                        yield ep

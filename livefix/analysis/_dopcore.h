@@ -6,7 +6,8 @@
 #include <Python.h>
 #include <math.h>
 
-#define EXACT_INT_MAX 9007199254740992LL /* 2**53: ints up to this convert to double exactly */
+#include "../_corekit.h"
+
 #define DOP_MAX_NAMES 32 /* distinct system names dop_rank_names sorts */
 #define DOP_HIDDEN __attribute__((visibility("hidden")))
 
@@ -29,15 +30,7 @@ static inline int value_of(PyObject *v, double *out)
         *out = x;
         return 1;
     }
-    if (PyLong_CheckExact(v)) {
-        int over = 0;
-        long long x = PyLong_AsLongLongAndOverflow(v, &over);
-        if (over || x > EXACT_INT_MAX || x < -EXACT_INT_MAX)
-            return 0;
-        *out = (double)x;
-        return 1;
-    }
-    return 0;
+    return PyLong_CheckExact(v) && kit_exact_int(v, out);
 }
 
 /* Equal exact str (no error possible for exact str operands). */

@@ -9,7 +9,6 @@
  * runs). Keys (system, prn) are packed into one integer, so set and dict lookups become compares.
  */
 #include "_dopcore.h"
-#include <structmember.h>
 
 #define MAX_SATS 256    /* satellites and listed pairs taken (more: hand over) */
 #define MAX_SYSTEMS DOP_MAX_NAMES /* distinct systems taken */
@@ -39,17 +38,8 @@ PyObject *dop_configure(PyObject *module, PyObject *type)
     Py_ssize_t off[U_COUNT];
     if (!PyType_Check(type))
         return PyErr_Format(PyExc_TypeError, "configure() takes the satellite type");
-    for (int f = 0; f < U_COUNT; f++) {
-        PyObject *d = PyObject_GetAttrString(type, U_NAMES[f]);
-        if (d == NULL)
-            return NULL;
-        int ok = Py_TYPE(d) == &PyMemberDescr_Type && ((PyMemberDescrObject *)d)->d_member->type == T_OBJECT_EX;
-        if (ok)
-            off[f] = ((PyMemberDescrObject *)d)->d_member->offset;
-        Py_DECREF(d);
-        if (!ok)
-            return PyErr_Format(PyExc_TypeError, "%s is not an object slot", U_NAMES[f]);
-    }
+    if (kit_slot_offsets(type, U_NAMES, U_COUNT, off, "%s is not an object slot") < 0)
+        return NULL;
     Py_XSETREF(st->sat_type, (PyTypeObject *)Py_NewRef(type));
     memcpy(st->off, off, sizeof(off));
     Py_RETURN_NONE;

@@ -20,7 +20,6 @@
  * (the value checks the passes share).
  */
 #include "_epochcore.h"
-#include <structmember.h>
 
 #define API 1
 
@@ -43,20 +42,7 @@ PyObject *ep_s_seen_of, *ep_s_seen, *ep_s_seen_overflow, *ep_s_t, *ep_s_tracked,
 
 static int offsets(PyObject *type, const char **names, int n, Py_ssize_t *off)
 {
-    for (int f = 0; f < n; f++) {
-        PyObject *d = PyObject_GetAttrString(type, names[f]);
-        if (d == NULL)
-            return -1;
-        int ok = Py_TYPE(d) == &PyMemberDescr_Type && ((PyMemberDescrObject *)d)->d_member->type == T_OBJECT_EX;
-        if (ok)
-            off[f] = ((PyMemberDescrObject *)d)->d_member->offset;
-        Py_DECREF(d);
-        if (!ok) {
-            PyErr_Format(PyExc_TypeError, "%s is not a slot of %R", names[f], type);
-            return -1;
-        }
-    }
-    return 0;
+    return kit_slot_offsets(type, names, n, off, "%s is not a slot of %R");
 }
 
 static int set_types(PyObject *sat, PyObject *epoch)

@@ -13,13 +13,14 @@
 #include <Python.h>
 #include <math.h>
 
+#include "../_corekit.h"
+
 #if defined(__GNUC__) && !defined(_WIN32)
 #define EP_HIDDEN __attribute__((visibility("hidden")))
 #else
 #define EP_HIDDEN
 #endif
 
-#define EXACT_INT_MAX 9007199254740992LL /* 2**53: ints up to this convert to double exactly */
 #define COUNT_MAX (1LL << 62)            /* counters kept in C stay far from overflow */
 
 enum { S_SYSTEM, S_PRN, S_ELEV, S_AZIM, S_CN0, S_USED, S_COUNT };
@@ -49,62 +50,15 @@ EP_HIDDEN PyObject *ep_sky_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t n
 
 /* ---- values ---- */
 
-/* An exact int that converts to double exactly, or an exact float: 1 and its value, else 0. */
-static inline int num_of(PyObject *v, double *out)
-{
-    if (PyFloat_CheckExact(v)) {
-        *out = PyFloat_AS_DOUBLE(v);
-        return 1;
-    }
-    if (PyLong_CheckExact(v)) {
-        int over = 0;
-        long long x = PyLong_AsLongLongAndOverflow(v, &over);
-        if (over || x > EXACT_INT_MAX || x < -EXACT_INT_MAX)
-            return 0;
-        *out = (double)x;
-        return 1;
-    }
-    return 0;
-}
-
 /* An exact int in [-COUNT_MAX, COUNT_MAX]: 1 and its value, else 0. */
 static inline int count_of(PyObject *v, long long *out)
 {
-    if (!PyLong_CheckExact(v))
-        return 0;
-    int over = 0;
-    long long x = PyLong_AsLongLongAndOverflow(v, &over);
-    if (over || x > COUNT_MAX || x < -COUNT_MAX)
-        return 0;
-    *out = x;
-    return 1;
+    return kit_count_in(v, -COUNT_MAX, COUNT_MAX, out);
 }
 
 static inline PyObject *slot(PyObject *o, Py_ssize_t off)
 {
     return *(PyObject **)((char *)o + off);
-}
-
-/* list[k] = v (v a new reference, stolen); the old item is a float, an int or None, so dropping it
- * runs no Python code. -1 when v is NULL (no memory). */
-static inline int put(PyObject *list, Py_ssize_t k, PyObject *v)
-{
-    if (v == NULL)
-        return -1;
-    PyObject *old = PyList_GET_ITEM(list, k);
-    PyList_SET_ITEM(list, k, v);
-    Py_DECREF(old);
-    return 0;
-}
-
-static inline int add_float(PyObject *list, Py_ssize_t k, double x)
-{
-    return put(list, k, PyFloat_FromDouble(PyFloat_AS_DOUBLE(PyList_GET_ITEM(list, k)) + x));
-}
-
-static inline int add_one(PyObject *list, Py_ssize_t k)
-{
-    return put(list, k, PyLong_FromLongLong(PyLong_AsLongLong(PyList_GET_ITEM(list, k)) + 1));
 }
 
 /* A (system, prn) key of exact str and exact int. */

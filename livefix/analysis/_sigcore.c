@@ -21,7 +21,6 @@
  * their private header _sigcore.h (the value checks the loops share).
  */
 #include "_sigcore.h"
-#include <structmember.h>
 
 #define API 1
 
@@ -79,19 +78,8 @@ static PyObject *configure(PyObject *mod, PyObject *args)
         return NULL;
     }
     Py_ssize_t off[F_COUNT];
-    for (int f = 0; f < F_COUNT; f++) {
-        PyObject *d = PyObject_GetAttrString(type, FIELD_NAMES[f]);
-        if (d == NULL)
-            return NULL;
-        int ok = Py_TYPE(d) == &PyMemberDescr_Type && ((PyMemberDescrObject *)d)->d_member->type == T_OBJECT_EX;
-        if (ok)
-            off[f] = ((PyMemberDescrObject *)d)->d_member->offset;
-        Py_DECREF(d);
-        if (!ok) {
-            PyErr_Format(PyExc_TypeError, "%s is not a slot of the satellite type", FIELD_NAMES[f]);
-            return NULL;
-        }
-    }
+    if (kit_slot_offsets(type, FIELD_NAMES, F_COUNT, off, "%s is not a slot of the satellite type") < 0)
+        return NULL;
     double s[91];
     Py_ssize_t b[91], c[91];
     if (table(sin_l, s, NULL) < 0 || table(band_l, NULL, b) < 0 || table(cell_l, NULL, c) < 0)

@@ -13,13 +13,13 @@
 #include <math.h>
 #include <string.h>
 
+#include "../_corekit.h"
+
 #if defined(__GNUC__) && !defined(_WIN32)
 #define SIG_HIDDEN __attribute__((visibility("hidden")))
 #else
 #define SIG_HIDDEN
 #endif
-
-#define EXACT_INT_MAX 9007199254740992LL /* 2**53: ints up to this convert to double exactly */
 
 enum { F_SYSTEM, F_PRN, F_SIGNAL, F_ELEV, F_AZIM, F_CN0, F_COUNT };
 
@@ -40,35 +40,10 @@ SIG_HIDDEN PyObject *sig_baselines(PyObject *mod, PyObject *args);
 
 /* ---- values ---- */
 
-/* An exact int that converts to double exactly, or an exact float: 1 and its value, else 0. */
-static inline int num_of(PyObject *v, double *out)
-{
-    if (PyFloat_CheckExact(v)) {
-        *out = PyFloat_AS_DOUBLE(v);
-        return 1;
-    }
-    if (PyLong_CheckExact(v)) {
-        int over = 0;
-        long long x = PyLong_AsLongLongAndOverflow(v, &over);
-        if (over || x > EXACT_INT_MAX || x < -EXACT_INT_MAX)
-            return 0;
-        *out = (double)x;
-        return 1;
-    }
-    return 0;
-}
-
 /* An exact int that fits a long long with room for + 1: 1 and its value, else 0. */
 static inline int count_of(PyObject *v, long long *out)
 {
-    if (!PyLong_CheckExact(v))
-        return 0;
-    int over = 0;
-    long long x = PyLong_AsLongLongAndOverflow(v, &over);
-    if (over || x == LLONG_MAX)
-        return 0;
-    *out = x;
-    return 1;
+    return kit_count_in(v, LLONG_MIN, LLONG_MAX - 1, out);
 }
 
 /* A list of at least n items, the first n of exact types: 'f' float, 'i' int (a count). */
@@ -84,28 +59,6 @@ static inline int entry_ok(PyObject *e, const char *kinds)
             return 0;
     }
     return 1;
-}
-
-/* list[k] = v (v a new reference, stolen); the old item is a float or an int, so dropping it runs
- * no Python code. -1 when v is NULL (no memory). */
-static inline int put(PyObject *list, Py_ssize_t k, PyObject *v)
-{
-    if (v == NULL)
-        return -1;
-    PyObject *old = PyList_GET_ITEM(list, k);
-    PyList_SET_ITEM(list, k, v);
-    Py_DECREF(old);
-    return 0;
-}
-
-static inline int add_float(PyObject *list, Py_ssize_t k, double x)
-{
-    return put(list, k, PyFloat_FromDouble(PyFloat_AS_DOUBLE(PyList_GET_ITEM(list, k)) + x));
-}
-
-static inline int add_one(PyObject *list, Py_ssize_t k)
-{
-    return put(list, k, PyLong_FromLongLong(PyLong_AsLongLong(PyList_GET_ITEM(list, k)) + 1));
 }
 
 static inline PyObject *slot(PyObject *s, int f)

@@ -11,10 +11,10 @@ given for at least one signal; "used" is the epoch's used set (GSA lists, livefi
 from __future__ import annotations
 
 import importlib
-import os
 from types import ModuleType
 from typing import Any
 
+from livefix import corepick
 from livefix.state.epoch import Epoch, SatObs
 
 KINDS = ("in_view", "tracked", "used")
@@ -39,11 +39,7 @@ def load_core(configure: str, *args: Any) -> ModuleType | None:
 def pick_core(core: ModuleType | None, native: bool | None) -> ModuleType | None:
     """native None: core unless LIVEFIX_PURE is "1"; True: core, or RuntimeError when it is not built
     (tests); False: None, the Python code."""
-    if native is None:
-        native = os.environ.get("LIVEFIX_PURE") != "1"
-    elif native and core is None:
-        raise RuntimeError("the C core livefix.analysis._epochcore is not built")
-    return core if native else None
+    return corepick.pick_core(core, native, "the C core livefix.analysis._epochcore is not built")
 
 
 def _kth(hist: dict[int, int], k: int) -> int:

@@ -36,10 +36,10 @@ from __future__ import annotations
 
 import importlib
 import math
-import os
 from collections.abc import Callable, Sequence
 from types import ModuleType
 
+from livefix import corepick
 from livefix.state.epoch import SatObs
 
 KEYS = ("gdop", "pdop", "hdop", "vdop", "tdop")
@@ -173,11 +173,7 @@ _CORE = _built_core()
 def pick_core(native: bool | None = None) -> ModuleType | None:
     """native None: the C twin unless LIVEFIX_PURE is "1" or it is not built; True: the C twin or
     RuntimeError (tests); False: None (the references)."""
-    if native is None:
-        native = os.environ.get("LIVEFIX_PURE") != "1"
-    elif native and _CORE is None:
-        raise RuntimeError("the C core livefix.analysis._dopcore is not built (or built with other constants)")
-    return _CORE if native else None
+    return corepick.pick_core(_CORE, native, "the C core livefix.analysis._dopcore is not built (or built with other constants)")
 
 
 def make_solver(native: bool | None = None) -> Solver:

@@ -8,8 +8,9 @@ type, tables and constants to the C code, so that the two never work from differ
 
 from __future__ import annotations
 
-import os
 from types import ModuleType
+
+from livefix import corepick
 
 API = 1  # the interface of _sigcore spoken here; a build of another one is not used
 
@@ -38,8 +39,4 @@ def load(args: tuple) -> ModuleType | None:
 def pick(core: ModuleType | None, native: bool | None) -> ModuleType | None:
     """native None: core unless LIVEFIX_PURE is "1"; True: core, or RuntimeError when it is not built
     (tests); False: None, the Python loops."""
-    if native is None:
-        native = os.environ.get("LIVEFIX_PURE") != "1"
-    elif native and core is None:
-        raise RuntimeError("the C core livefix.analysis._sigcore is not built")
-    return core if native else None
+    return corepick.pick_core(core, native, "the C core livefix.analysis._sigcore is not built")

@@ -4,6 +4,7 @@
  * read-only field mappings (_gsvcore_store.c), both cleared past MEMO_MAX entries as in Python.
  */
 #include "_gsvcore.h"
+#include "../_corekit.h"
 
 static PyObject *S_GET, *S_SIGNAL, *S_NUMMSG, *S_MSGNUM, *S_NUMSV, *EMPTY_STR;
 static PyObject *BLOCK[16];  /* svid_01, elv_01, az_01, cno_01, svid_02, ... (gsv._BLOCK_FLAT) */
@@ -19,38 +20,10 @@ static void set_unknown(Asm *s, PyObject *v)
 
 /* ---- reading a field mapping ---- */
 
-typedef struct { PyObject *first; int n; } Seen;
-
-static int seen_visit(PyObject *o, void *arg)
-{
-    Seen *seen = arg;
-    if (seen->n++ == 0) seen->first = o;
-    return 0;
-}
-
-/* The plain dict f reads from when f is one or a read-only view (MappingProxyType) of one, else
- * NULL. Why: the decoder hands out views of plain dicts, whose get() costs two method calls per
- * field. A view's only reference is its mapping (what its tp_traverse visits), and a view's get()
- * is its dict's get(), so reading the dict gives the same values. Anything else: its own get(). */
-static PyObject *plain_dict(PyObject *f)
-{
-    if (PyDict_CheckExact(f)) return f;
-    if (!Py_IS_TYPE(f, &PyDictProxy_Type) || Py_TYPE(f)->tp_traverse == NULL) return NULL;
-    Seen seen = {NULL, 0};
-    Py_TYPE(f)->tp_traverse(f, seen_visit, &seen);
-    return seen.n == 1 && PyDict_CheckExact(seen.first) ? seen.first : NULL;
-}
-
-/* f.get(name) or f.get(name, dflt) (dflt NULL: no default given); a new reference */
+/* f.get(name) or f.get(name, dflt), d = kit_plain_dict(f) (livefix/_corekit.h); a new reference */
 static PyObject *field(PyObject *d, PyObject *f, PyObject *name, PyObject *dflt)
 {
-    if (d != NULL) {
-        PyObject *v = PyDict_GetItemWithError(d, name);
-        if (v == NULL && PyErr_Occurred()) return NULL;
-        return Py_NewRef(v != NULL ? v : dflt != NULL ? dflt : Py_None);
-    }
-    PyObject *args[3] = {f, name, dflt};
-    return PyObject_VectorcallMethod(S_GET, args, dflt != NULL ? 3 : 2, NULL);
+    return kit_field(d, f, name, dflt, S_GET);
 }
 
 /* gsv.GsvAssembler._part: satellites of one part (+ numbers no block fits), memoised by value and
@@ -111,7 +84,7 @@ PyObject *gsv_add(Asm *s, PyObject *talker, PyObject *f)
         num = m->num;
         part = m->part;
     } else {
-        d = plain_dict(f);
+        d = kit_plain_dict(f);
         PyObject *sid = field(d, f, S_SIGNAL, EMPTY_STR);
         if (sid != NULL && !PyUnicode_CheckExact(sid)) Py_SETREF(sid, PyObject_Str(sid));
         if (sid == NULL) goto fail;

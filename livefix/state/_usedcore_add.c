@@ -6,6 +6,7 @@
  * duplicated here).
  */
 #include "_usedcore.h"
+#include "../_corekit.h"
 
 static PyObject *S_GET, *S_SYSID, *S_GSA, *S_SPACE, *EMPTY_STR;
 static PyObject *S_PARTS[3]; /* placed, open, unknown: the attributes of a used.GsaSentence */
@@ -70,38 +71,12 @@ static int memo_put(Tracker *s, PyObject *f, PyObject *g) /* f is not in the mem
     return 0;
 }
 
-/* ---- reading a field mapping (as livefix/state/_gsvcore.c) ---- */
+/* ---- reading a field mapping ---- */
 
-typedef struct { PyObject *first; int n; } Seen;
-
-static int seen_visit(PyObject *o, void *arg)
-{
-    Seen *seen = arg;
-    if (seen->n++ == 0) seen->first = o;
-    return 0;
-}
-
-/* The plain dict f reads from when f is one or a read-only view (MappingProxyType) of one, else
- * NULL: a view's only reference is its mapping, and its get() is that dict's get(). */
-static PyObject *plain_dict(PyObject *f)
-{
-    if (PyDict_CheckExact(f)) return f;
-    if (!Py_IS_TYPE(f, &PyDictProxy_Type) || Py_TYPE(f)->tp_traverse == NULL) return NULL;
-    Seen seen = {NULL, 0};
-    Py_TYPE(f)->tp_traverse(f, seen_visit, &seen);
-    return seen.n == 1 && PyDict_CheckExact(seen.first) ? seen.first : NULL;
-}
-
-/* f.get(name) or f.get(name, dflt) (dflt NULL: no default given); a new reference */
+/* f.get(name) or f.get(name, dflt), d = kit_plain_dict(f) (livefix/_corekit.h); a new reference */
 static PyObject *field(PyObject *d, PyObject *f, PyObject *name, PyObject *dflt)
 {
-    if (d != NULL) {
-        PyObject *v = PyDict_GetItemWithError(d, name);
-        if (v == NULL && PyErr_Occurred()) return NULL;
-        return Py_NewRef(v != NULL ? v : dflt != NULL ? dflt : Py_None);
-    }
-    PyObject *args[3] = {f, name, dflt};
-    return PyObject_VectorcallMethod(S_GET, args, dflt != NULL ? 3 : 2, NULL);
+    return kit_field(d, f, name, dflt, S_GET);
 }
 
 /* ---- note_unknown(): used.UsedTracker.note_unknown ---- */
@@ -184,7 +159,7 @@ PyObject *used_add(Tracker *s, PyObject *talker, PyObject *f)
     if (m != NULL) { /* the decoder's shared value of a repeated line */
         g = Py_NewRef(m->g);
     } else {
-        PyObject *d = plain_dict(f);
+        PyObject *d = kit_plain_dict(f);
         g = NULL;
         if ((sid = field(d, f, S_SYSID, EMPTY_STR)) == NULL || (svids = PyTuple_New(12)) == NULL) goto done;
         for (int i = 0; i < 12; i++) {

@@ -16,11 +16,10 @@ the set holds what arrived. Either way the set is counted as incomplete.
 
 from __future__ import annotations
 
-import importlib
-import os
 from collections.abc import Mapping
 from types import MappingProxyType, ModuleType
 
+from livefix.corepick import built_core, pick_core
 from livefix.state.epoch import TALKER_SYSTEM
 from livefix.state.prn import user_prn
 
@@ -188,13 +187,8 @@ class GsvAssembler:
 def _built_core() -> ModuleType | None:
     """The C twin (livefix/state/_gsvcore.c) when it was built with this module's caps, else None
     (a build older than a change of caps here is not used; tests/state/test_gsv_native.py fails on it)."""
-    try:
-        # the extension itself, not the livefix.state package (whose __init__ imports the model)
-        _gsvcore = importlib.import_module("livefix.state._gsvcore")  # built by setup.py
-    except ImportError:
-        return None
-    caps = (_gsvcore.MAX_PARTS, _gsvcore.MEMO_MAX, _gsvcore.MAX_GROUPS)
-    return _gsvcore if caps == (MAX_PARTS, MEMO_MAX, GsvAssembler.MAX_GROUPS) else None  # a stale build
+    return built_core("livefix.state._gsvcore", ("MAX_PARTS", "MEMO_MAX", "MAX_GROUPS"),
+                      (MAX_PARTS, MEMO_MAX, GsvAssembler.MAX_GROUPS))
 
 
 _CORE = _built_core()
@@ -205,12 +199,9 @@ def make_assembler(native: bool | None = None) -> GsvAssembler:
     times faster per line), else GsvAssembler, the reference. native None: the C twin unless
     LIVEFIX_PURE is "1" (as livefix.framing.native_core()); True: the C twin or RuntimeError (tests);
     False: the reference."""
-    if native is None:
-        native = _CORE is not None and os.environ.get("LIVEFIX_PURE") != "1"
-    elif native and _CORE is None:
-        raise RuntimeError("the C core livefix.state._gsvcore is not built (or built with other caps)")
-    if native:
-        return _CORE.GsvAssembler(_part_sats, TALKER_SYSTEM)  # type: ignore[union-attr, no-any-return]
+    core = pick_core(_CORE, native, "the C core livefix.state._gsvcore is not built (or built with other caps)")
+    if core is not None:
+        return core.GsvAssembler(_part_sats, TALKER_SYSTEM)  # type: ignore[no-any-return]
     return GsvAssembler()
 
 

@@ -14,12 +14,11 @@ block fits is never dropped silently: it is returned as unknown for the epoch an
 
 from __future__ import annotations
 
-import importlib
-import os
 from collections.abc import Callable, Mapping
 from types import MappingProxyType, ModuleType
 from typing import Any
 
+from livefix.corepick import built_core, pick_core
 from livefix.state.epoch import SYSTEM_ID, TALKER_SYSTEM
 from livefix.state.prn import NATIVE_MAX, user_prn
 
@@ -189,13 +188,8 @@ class UsedTracker:
 def _built_core() -> ModuleType | None:
     """The C twin (livefix/state/_usedcore.c) when it was built with this module's caps, else None
     (a build older than a change of caps here is not used; tests/state/test_used_native.py fails on it)."""
-    try:
-        # the extension itself, not the livefix.state package (whose __init__ imports the model)
-        core = importlib.import_module("livefix.state._usedcore")  # built by setup.py
-    except ImportError:
-        return None
-    caps = (core.BY_VALUE_MAX, core.BY_ID_MAX, core.MAX_UNKNOWN, core.USED_HOLD_S)
-    return core if caps == (BY_VALUE_MAX, BY_ID_MAX, MAX_UNKNOWN, USED_HOLD_S) else None  # a stale build
+    return built_core("livefix.state._usedcore", ("BY_VALUE_MAX", "BY_ID_MAX", "MAX_UNKNOWN", "USED_HOLD_S"),
+                      (BY_VALUE_MAX, BY_ID_MAX, MAX_UNKNOWN, USED_HOLD_S))
 
 
 _CORE = _built_core()
@@ -206,10 +200,7 @@ def make_used_tracker(native: bool | None = None) -> UsedTracker:
     several times faster per GSA line), else UsedTracker, the reference. native None: the C twin
     unless LIVEFIX_PURE is "1" (as livefix.framing.native_core()); True: the C twin or RuntimeError
     (tests); False: the reference."""
-    if native is None:
-        native = _CORE is not None and os.environ.get("LIVEFIX_PURE") != "1"
-    elif native and _CORE is None:
-        raise RuntimeError("the C core livefix.state._usedcore is not built (or built with other caps)")
-    if native:
-        return _CORE.UsedTracker(classify, place)  # type: ignore[union-attr, no-any-return]
+    core = pick_core(_CORE, native, "the C core livefix.state._usedcore is not built (or built with other caps)")
+    if core is not None:
+        return core.UsedTracker(classify, place)  # type: ignore[no-any-return]
     return UsedTracker()

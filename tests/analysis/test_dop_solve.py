@@ -13,39 +13,21 @@ import importlib.util
 import math
 import random
 import sys
-import threading
-from types import ModuleType
 
 import numpy as np
 import pytest
-from twinkit import CORPUS, CORPUS_FILES, ROOT
+from twinkit import CORPUS, CORPUS_FILES, bench_module, corpus_epochs, sim_epochs
 
 from livefix.analysis import dop, dopsolve
 from livefix.analysis.dop import DopStats
-from livefix.decode import Rejected
-from livefix.decode.decoder import Decoder
-from livefix.framing import Framer
 from livefix.geodesy import dop as numpy_dop
-from livefix.items import Chunk
-from livefix.sim import Scenario, SimReceiver
 from livefix.sim.dialects import DIALECTS
-from livefix.sources import open_source
 from livefix.state.epoch import Epoch, SatObs
-from livefix.state.model import StateModel
 
 EPS = 2.0**-52
 
 
-def _fuzz_dop() -> ModuleType:
-    spec = importlib.util.spec_from_file_location("livefix_bench_fuzz_dop", ROOT / "bench" / "fuzz_dop.py")
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    sys.modules[spec.name] = mod
-    spec.loader.exec_module(mod)
-    return mod
-
-
-FUZZ = _fuzz_dop()
+FUZZ = bench_module("fuzz_dop")
 core = dopsolve._CORE
 needs_core = pytest.mark.skipif(core is None, reason="livefix.analysis._dopcore is not built (no compiler?)")
 
@@ -340,25 +322,13 @@ class Twin:
         assert repr(self.c.snapshot()) == repr(self.p.snapshot())
 
 
-def _corpus_epochs(name: str) -> list[Epoch]:
-    fr, dec, sm = Framer(), Decoder(), StateModel()
-    out: list[Epoch] = []
-    for it in open_source(str(CORPUS / name), speed=None).items(threading.Event()):
-        if type(it) is Chunk:
-            for ln in fr.feed(it.data):
-                msg = dec.decode(ln)
-                if type(msg) is not Rejected:
-                    out += [e for e in sm.on_sentence(msg, it.mono, it.wall) if type(e) is Epoch]
-    return out + [e for e in sm.finish() if type(e) is Epoch]
-
-
 @needs_core
 @pytest.mark.skipif(not CORPUS_FILES, reason="shared/realdata corpus not present (see shared/realdata/SOURCES.md)")
 @pytest.mark.parametrize("name", CORPUS_FILES)
 def test_dopstats_corpus_logs(name: str) -> None:
     # shared/realdata/corpus/<name>: a public log, source in shared/realdata/SOURCES.md
     t = Twin()
-    for ep in _corpus_epochs(name):
+    for ep in corpus_epochs(CORPUS / name):
         t.step(ep)
     t.check()
 
@@ -369,15 +339,8 @@ DIALECT_RUNS = ["clean", *DIALECTS]
 @needs_core
 @pytest.mark.parametrize("dialect", DIALECT_RUNS)
 def test_dopstats_simulator_dialects(dialect: str) -> None:
-    rx = SimReceiver(Scenario.load("rooftop"), rate_hz=10, seed=1, dialect=dialect)
-    fr, dec, sm = Framer(), Decoder(), StateModel()
     t = Twin()
-    for mono, chunk in rx.epochs(60.0):
-        for ln in fr.feed(chunk):
-            msg = dec.decode(ln)
-            if type(msg) is not Rejected:
-                for ep in sm.on_sentence(msg, mono, 1.7e9 + mono):
-                    if type(ep) is Epoch:
-                        t.step(ep)
+    for ep in sim_epochs(dialect, 60.0):
+        t.step(ep)
     t.check()
     assert t.solved > 0  # geometries were solved

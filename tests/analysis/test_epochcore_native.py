@@ -10,43 +10,23 @@ empty skies, time stepping back, widths that force bucket merges). Skipped when 
 
 from __future__ import annotations
 
-import importlib.util
 import random
-import threading
-from pathlib import Path
-from types import ModuleType
 
 import pytest
-from twinkit import CORPUS, CORPUS_FILES, ROOT
+from twinkit import CORPUS, CORPUS_FILES, bench_module, corpus_epochs, sim_epochs
 
 from livefix.analysis import counts, sky, trend
 from livefix.analysis.config import AnalysisConfig
 from livefix.analysis.counts import SatCounts
 from livefix.analysis.sky import SkyMap
 from livefix.analysis.trend import Trend
-from livefix.decode import Rejected
-from livefix.decode.decoder import Decoder
-from livefix.framing import Framer
-from livefix.items import Chunk
-from livefix.sim import Scenario, SimReceiver
 from livefix.sim.dialects import DIALECTS
-from livefix.sources import open_source
 from livefix.state.epoch import Epoch, SatObs
-from livefix.state.model import StateModel
 
 core = pytest.importorskip("livefix.analysis._epochcore", reason="livefix.analysis._epochcore is not built")
 
 
-def _fuzz() -> ModuleType:
-    """bench/fuzz_epochcore.py: the generator and comparison `make fuzz` runs under the sanitizers."""
-    spec = importlib.util.spec_from_file_location("livefix_bench_fuzz_epochcore", ROOT / "bench" / "fuzz_epochcore.py")
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod
-
-
-FUZZ = _fuzz()
+FUZZ = bench_module("fuzz_epochcore")  # the generator and comparison `make fuzz` runs under the sanitizers
 
 
 class Run:
@@ -65,19 +45,6 @@ class Run:
         self.pc.on_epoch(ep)
         assert FUZZ.exact([self.cc.hist, self.cc._cur, self.cc._run, self.cc.epochs]) == \
             FUZZ.exact([self.pc.hist, self.pc._cur, self.pc._run, self.pc.epochs])
-
-
-def corpus_epochs(path: Path) -> list[Epoch]:
-    """The epochs livefix makes of a log: its file source's chunks through Framer, Decoder, StateModel."""
-    fr, dec, sm = Framer(), Decoder(), StateModel()
-    out: list[Epoch] = []
-    for it in open_source(str(path), speed=None).items(threading.Event()):
-        if type(it) is Chunk:
-            for ln in fr.feed(it.data):
-                msg = dec.decode(ln)
-                if type(msg) is not Rejected:
-                    out += [e for e in sm.on_sentence(msg, it.mono, it.wall) if type(e) is Epoch]
-    return out + [e for e in sm.finish() if type(e) is Epoch]
 
 
 def test_core_is_configured_and_selected(monkeypatch: pytest.MonkeyPatch) -> None:
@@ -139,16 +106,9 @@ DIALECT_RUNS = ["clean", *DIALECTS]
 
 @pytest.mark.parametrize("dialect", DIALECT_RUNS)
 def test_simulator_dialects(dialect: str) -> None:
-    rx = SimReceiver(Scenario.load("rooftop"), rate_hz=10, seed=1, dialect=dialect)
-    fr, dec, sm = Framer(), Decoder(), StateModel()
     r = Run()
-    for mono, chunk in rx.epochs(40.0):
-        for ln in fr.feed(chunk):
-            msg = dec.decode(ln)
-            if type(msg) is not Rejected:
-                for ep in sm.on_sentence(msg, mono, 1.7e9 + mono):
-                    if type(ep) is Epoch:
-                        r.step(ep, suspend=r.trio.steps % 97 == 0)
+    for ep in sim_epochs(dialect, 40.0):
+        r.step(ep, suspend=r.trio.steps % 97 == 0)
     assert r.trio.samples >= 10, (r.trio.steps, r.trio.samples)
 
 

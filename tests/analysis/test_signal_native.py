@@ -13,25 +13,16 @@ Skipped when the extension is not built.
 from __future__ import annotations
 
 import random
-import threading
-from pathlib import Path
 from types import ModuleType
 
 import pytest
-from twinkit import CORPUS, CORPUS_FILES, bench_fuzz
+from twinkit import CORPUS, CORPUS_FILES, bench_fuzz, corpus_epochs, sim_epochs
 
 from livefix.analysis import signal, signal_native
 from livefix.analysis.config import AnalysisConfig
 from livefix.analysis.signal import SignalStats
-from livefix.decode import Rejected
-from livefix.decode.decoder import Decoder
-from livefix.framing import Framer
-from livefix.items import Chunk
-from livefix.sim import Scenario, SimReceiver
 from livefix.sim.dialects import DIALECTS
-from livefix.sources import open_source
 from livefix.state.epoch import Epoch, SatObs
-from livefix.state.model import StateModel
 
 core = pytest.importorskip("livefix.analysis._sigcore", reason="livefix.analysis._sigcore is not built (no compiler?)")
 
@@ -79,21 +70,6 @@ def _snapshot(s: SignalStats) -> str:
         return repr(s.snapshot())
     except Exception as err:  # noqa: BLE001 - compared by the caller
         return repr((type(err), str(err)))
-
-
-def corpus_epochs(path: Path) -> list[Epoch]:
-    """The epochs livefix makes of a log: its file source's timed chunks through Framer, Decoder and
-    StateModel."""
-    fr, dec, sm = Framer(), Decoder(), StateModel()
-    out: list[Epoch] = []
-    for it in open_source(str(path), speed=None).items(threading.Event()):
-        if type(it) is not Chunk:
-            continue
-        for ln in fr.feed(it.data):
-            msg = dec.decode(ln)
-            if type(msg) is not Rejected:
-                out += [e for e in sm.on_sentence(msg, it.mono, it.wall) if type(e) is Epoch]
-    return out + [e for e in sm.finish() if type(e) is Epoch]
 
 
 def test_core_is_configured_and_selected(monkeypatch: pytest.MonkeyPatch) -> None:
@@ -152,16 +128,9 @@ DIALECT_RUNS = ["clean", *DIALECTS, ",".join(n for n in DIALECTS if n not in (
 
 @pytest.mark.parametrize("dialect", DIALECT_RUNS, ids=[*DIALECT_RUNS[:-1], "all-at-once"])
 def test_simulator_dialects(dialect: str) -> None:
-    rx = SimReceiver(Scenario.load("rooftop"), rate_hz=10, seed=1, dialect=dialect)
-    fr, dec, sm = Framer(), Decoder(), StateModel()
     t = Twin()
-    for mono, chunk in rx.epochs(60.0):
-        for ln in fr.feed(chunk):
-            msg = dec.decode(ln)
-            if type(msg) is not Rejected:
-                for ep in sm.on_sentence(msg, mono, 1.7e9 + mono):
-                    if type(ep) is Epoch:
-                        t.step(ep)
+    for ep in sim_epochs(dialect, 60.0):
+        t.step(ep)
     assert t.runs >= 50
 
 

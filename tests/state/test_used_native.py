@@ -13,17 +13,16 @@ under the placing memo), and hand-made odd cases. Skipped when the extension is 
 from __future__ import annotations
 
 import gc
-import importlib.util
 import random
 import threading
 import weakref
 from itertools import islice
 from pathlib import Path
-from types import MappingProxyType, ModuleType
+from types import MappingProxyType
 from typing import Any
 
 import pytest
-from twinkit import CORPUS, CORPUS_FILES, ROOT
+from twinkit import CORPUS, CORPUS_FILES, bench_module
 
 from livefix.decode import Rejected
 from livefix.decode.decoder import Decoder
@@ -39,16 +38,7 @@ from livefix.state.used import UsedTracker, classify, make_used_tracker, place
 core = pytest.importorskip("livefix.state._usedcore", reason="livefix.state._usedcore is not built (no compiler?)")
 
 
-def _load_fuzz() -> ModuleType:
-    """bench/fuzz_used.py: the generator `make fuzz` runs under the sanitizers."""
-    spec = importlib.util.spec_from_file_location("livefix_bench_fuzz_used", ROOT / "bench" / "fuzz_used.py")
-    assert spec is not None and spec.loader is not None
-    mod = importlib.util.module_from_spec(spec)
-    spec.loader.exec_module(mod)
-    return mod
-
-
-FUZZ = _load_fuzz()
+FUZZ = bench_module("fuzz_used")  # the generator `make fuzz` runs under the sanitizers
 
 
 def twin() -> Any:

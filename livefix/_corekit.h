@@ -1,0 +1,129 @@
+/* Value helpers the C cores share (private; static inline, so each module keeps its own copy and
+ * exports nothing new). Include after Python.h, by relative path: "../_corekit.h".
+ *
+ * Each helper is exactly what the cores had inlined before, so the twins' results do not move;
+ * where cores differed (a count's bounds, an error message) the difference is a parameter.
+ */
+#ifndef LIVEFIX_COREKIT_H
+#define LIVEFIX_COREKIT_H
+
+#include <Python.h>
+#include <structmember.h>
+
+#define EXACT_INT_MAX 9007199254740992LL /* 2**53: ints up to this convert to double exactly */
+
+/* An exact int within +-EXACT_INT_MAX: 1 and its value as a double, else 0. */
+static inline int kit_exact_int(PyObject *v, double *out)
+{
+    int over = 0;
+    long long x = PyLong_AsLongLongAndOverflow(v, &over);
+    if (over || x > EXACT_INT_MAX || x < -EXACT_INT_MAX)
+        return 0;
+    *out = (double)x;
+    return 1;
+}
+
+/* An exact int that converts to double exactly, or an exact float: 1 and its value, else 0. */
+static inline int num_of(PyObject *v, double *out)
+{
+    if (PyFloat_CheckExact(v)) {
+        *out = PyFloat_AS_DOUBLE(v);
+        return 1;
+    }
+    return PyLong_CheckExact(v) && kit_exact_int(v, out);
+}
+
+/* An exact int in [lo, hi]: 1 and its value, else 0. */
+static inline int kit_count_in(PyObject *v, long long lo, long long hi, long long *out)
+{
+    if (!PyLong_CheckExact(v))
+        return 0;
+    int over = 0;
+    long long x = PyLong_AsLongLongAndOverflow(v, &over);
+    if (over || x > hi || x < lo)
+        return 0;
+    *out = x;
+    return 1;
+}
+
+/* list[k] = v (v a new reference, stolen); the callers' old items are floats, ints or None, so
+ * dropping one runs no Python code. -1 when v is NULL (no memory). */
+static inline int put(PyObject *list, Py_ssize_t k, PyObject *v)
+{
+    if (v == NULL)
+        return -1;
+    PyObject *old = PyList_GET_ITEM(list, k);
+    PyList_SET_ITEM(list, k, v);
+    Py_DECREF(old);
+    return 0;
+}
+
+static inline int add_float(PyObject *list, Py_ssize_t k, double x)
+{
+    return put(list, k, PyFloat_FromDouble(PyFloat_AS_DOUBLE(PyList_GET_ITEM(list, k)) + x));
+}
+
+static inline int add_one(PyObject *list, Py_ssize_t k)
+{
+    return put(list, k, PyLong_FromLongLong(PyLong_AsLongLong(PyList_GET_ITEM(list, k)) + 1));
+}
+
+/* The slot offsets of names[0..n) in type: 0, or -1 with an error set. A name that is not an
+ * object slot raises TypeError(fmt % (name, type)); fmt may leave out the %R. */
+static inline int kit_slot_offsets(PyObject *type, const char *const *names, int n, Py_ssize_t *off,
+                                   const char *fmt)
+{
+    for (int f = 0; f < n; f++) {
+        PyObject *d = PyObject_GetAttrString(type, names[f]);
+        if (d == NULL)
+            return -1;
+        int ok = Py_TYPE(d) == &PyMemberDescr_Type && ((PyMemberDescrObject *)d)->d_member->type == T_OBJECT_EX;
+        if (ok)
+            off[f] = ((PyMemberDescrObject *)d)->d_member->offset;
+        Py_DECREF(d);
+        if (!ok) {
+            PyErr_Format(PyExc_TypeError, fmt, names[f], type);
+            return -1;
+        }
+    }
+    return 0;
+}
+
+/* ---- reading a field mapping (the state cores) ---- */
+
+typedef struct { PyObject *first; int n; } KitSeen;
+
+static inline int kit_seen_visit(PyObject *o, void *arg)
+{
+    KitSeen *seen = arg;
+    if (seen->n++ == 0) seen->first = o;
+    return 0;
+}
+
+/* The plain dict f reads from when f is one or a read-only view (MappingProxyType) of one, else
+ * NULL. Why: the decoder hands out views of plain dicts, whose get() costs two method calls per
+ * field. A view's only reference is its mapping (what its tp_traverse visits), and a view's get()
+ * is its dict's get(), so reading the dict gives the same values. Anything else: its own get(). */
+static inline PyObject *kit_plain_dict(PyObject *f)
+{
+    if (PyDict_CheckExact(f)) return f;
+    if (!Py_IS_TYPE(f, &PyDictProxy_Type) || Py_TYPE(f)->tp_traverse == NULL) return NULL;
+    KitSeen seen = {NULL, 0};
+    Py_TYPE(f)->tp_traverse(f, kit_seen_visit, &seen);
+    return seen.n == 1 && PyDict_CheckExact(seen.first) ? seen.first : NULL;
+}
+
+/* f.get(name) or f.get(name, dflt) (dflt NULL: no default given), d = kit_plain_dict(f), get the
+ * interned "get"; a new reference */
+static inline PyObject *kit_field(PyObject *d, PyObject *f, PyObject *name, PyObject *dflt, PyObject *get)
+{
+    if (d != NULL) {
+        PyObject *v = PyDict_GetItemWithError(d, name);
+        if (v == NULL && PyErr_Occurred()) return NULL;
+        return Py_NewRef(v != NULL ? v : dflt != NULL ? dflt : Py_None);
+    }
+    PyObject *args[3] = {f, name, dflt};
+    return PyObject_VectorcallMethod(get, args, dflt != NULL ? 3 : 2, NULL);
+}
+
+#endif
