@@ -1,5 +1,5 @@
 """Build of the optional C cores (livefix._native, livefix.state._gsvcore, livefix.state._usedcore,
-livefix.analysis._sigcore, livefix.analysis._dopcore,
+livefix.state._skycore, livefix.state._statecore, livefix.analysis._sigcore, livefix.analysis._dopcore,
 livefix.analysis._epochcore: C_CORES);
 everything else is declared in pyproject.toml.
 
@@ -67,6 +67,17 @@ C_CORES = {
         ["livefix/state/_usedcore.c", "livefix/state/_usedcore_add.c", "livefix/state/_usedcore_close.c"],
         ["livefix/state/_usedcore.h", "livefix/_corekit.h"],
     ),
+    # the sky store (livefix/state/sky.py keeps the reference Sky and picks this one when built)
+    "livefix.state._skycore": (
+        ["livefix/state/_skycore.c", "livefix/state/_skycore_plan.c"],
+        ["livefix/state/_skycore.h", "livefix/_corekit.h"],
+    ),
+    # the state model's epoch assembly (livefix/state/model.py keeps the reference; model_native.py wires this in)
+    "livefix.state._statecore": (
+        ["livefix/state/_statecore.c", "livefix/state/_statecore_line.c", "livefix/state/_statecore_add.c",
+         "livefix/state/_statecore_close.c"],
+        ["livefix/state/_statecore.h", "livefix/_corekit.h"],
+    ),
     # DopStats' closed-form DOP solve and used-satellite pass (analysis/dopsolve.py and dop.py keep the references)
     "livefix.analysis._dopcore": (
         ["livefix/analysis/_dopcore.c", "livefix/analysis/_dopused.c"],
@@ -76,7 +87,8 @@ C_CORES = {
     # and sky.py keep the references)
     "livefix.analysis._epochcore": (
         ["livefix/analysis/_epochcore.c", "livefix/analysis/_epochcore_counts.c",
-         "livefix/analysis/_epochcore_trend.c", "livefix/analysis/_epochcore_sky.c"],
+         "livefix/analysis/_epochcore_trend.c", "livefix/analysis/_epochcore_sky.c",
+         "livefix/analysis/_epochcore_geo.c", "livefix/analysis/_epochcore_jumps.c"],
         ["livefix/analysis/_epochcore.h", "livefix/_corekit.h"],
     ),
 }

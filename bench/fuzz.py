@@ -197,9 +197,7 @@ def native_diff(inputs: int, seed: int = 1, base: list[str] | None = None) -> tu
 
 
 from fuzz_asan import asan_run  # noqa: E402
-from fuzz_dop import dop_diff, load_dop_core, used_diff  # noqa: E402
-from fuzz_epochcore import diff as epochcore_diff  # noqa: E402
-from fuzz_epochcore import load_epoch_core  # noqa: E402
+from fuzz_later import TWIN_LOADERS, later_twins, twin_results  # noqa: E402
 from fuzz_twins import (  # noqa: E402, F401  (tests read them here)
     gsv_diff,
     gsv_parts,
@@ -209,8 +207,6 @@ from fuzz_twins import (  # noqa: E402, F401  (tests read them here)
     sig_pair,
     sig_state,
 )
-from fuzz_used import load_used_core  # noqa: E402
-from fuzz_used import used_diff as tracker_diff  # noqa: E402
 
 
 def load_core(path: str) -> None:
@@ -245,58 +241,6 @@ def load_sig_core(path: str) -> None:
     if not signal_native.configure(mod, signal._CORE_ARGS):
         raise RuntimeError(f"{path}: not a usable build of livefix.analysis._sigcore")
     signal._CORE = mod
-
-
-# The later twins: module -> loader of another build of it (the sanitizer build, --twin-core NAME=PATH)
-TWIN_LOADERS = {
-    "livefix.analysis._dopcore": load_dop_core,
-    "livefix.state._usedcore": load_used_core,
-    "livefix.analysis._epochcore": load_epoch_core,
-}
-
-
-def later_twins(n: int, seed: int) -> int:
-    """The differentials of the later twins (DOP solve and used pass, GSA used tracker, per-epoch
-    passes), each against its Python reference; returns the disagreements in all."""
-    from livefix.analysis import counts, dopsolve
-    from livefix.state import used
-
-    bad = 0
-    if dopsolve._CORE is None:
-        print("DOP solve: livefix.analysis._dopcore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, handed, b, examples = dop_diff(n, seed)
-        _twin_results("DOP solve", "geometries", k, f"{k:,} ({handed:,} handed back)", 200_000, b, examples, t0)
-        t0 = time.perf_counter()
-        k, handed, b2, examples = used_diff(n // 4, seed)
-        _twin_results("DOP used pass", "epochs", k, f"{k:,} ({handed:,} handed back)", 50_000, b2, examples, t0)
-        bad += b + b2
-    if used._CORE is None:
-        print("GSA used tracker: livefix.state._usedcore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, b, examples = tracker_diff(n // 10, seed)
-        _twin_results("GSA used tracker", "calls", k, f"{k:,}", 20_000, b, examples, t0)
-        bad += b
-    if counts._CORE is None:
-        print("per-epoch passes: livefix.analysis._epochcore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, b, examples = epochcore_diff(n // 2, seed)
-        _twin_results("per-epoch passes", "epochs", k, f"{k:,}", 100_000, b, examples, t0)
-        bad += b
-    return bad
-
-
-def _twin_results(twin: str, unit: str, n: int, count: str, need: int, bad: int, examples: list[str],
-                  t0: float) -> None:
-    """The RESULT lines of one C twin's differential (and its first disagreements on stderr)."""
-    dt = time.perf_counter() - t0
-    for e in examples:
-        print(f"{twin} disagreement:", e, file=sys.stderr)
-    print(f"RESULT | {twin} fuzz {unit} | {count} in {dt:.0f} s | >= {need:,} | {'met' if n >= need else 'NOT met'}")
-    print(f"RESULT | {twin} fuzz disagreements | {bad} | 0 | {'met' if bad == 0 else 'NOT met'}")
 
 
 def rss_kib() -> int:
@@ -348,7 +292,7 @@ def main() -> int:
             return 1 if bad else 0
         t0 = time.perf_counter()
         n, gbad, examples = gsv_diff(gsv_adds, args.seed)
-        _twin_results("GSV assembler", "add() calls", n, f"{n:,}", 1_000_000, gbad, examples, t0)
+        twin_results("GSV assembler", "add() calls", n, f"{n:,}", 1_000_000, gbad, examples, t0)
         from livefix.analysis import signal
 
         if signal._CORE is None:
@@ -356,7 +300,7 @@ def main() -> int:
             return 1 if bad or gbad else 0
         t0 = time.perf_counter()
         n, calls, sbad, examples = sig_diff(sig_n, args.seed)
-        _twin_results("SignalStats loops", "calls", calls, f"{calls:,} ({n:,} epochs)", 300_000, sbad, examples, t0)
+        twin_results("SignalStats loops", "calls", calls, f"{calls:,} ({n:,} epochs)", 300_000, sbad, examples, t0)
         lbad = later_twins(sig_n, args.seed)
         return 1 if bad or gbad or sbad or lbad else 0
     rng = random.Random(args.seed)

@@ -213,8 +213,11 @@ def diff(n: int, seed: int = 1, odd: float = 0.02) -> tuple[int, int, list[str]]
 
 def load_epoch_core(path: str) -> ModuleType:
     """Use the build at `path` (e.g. the sanitizer build) as livefix.analysis._epochcore everywhere."""
+    import math
+
     import livefix.analysis
-    from livefix.analysis import counts, sky, trend
+    from livefix import geodesy
+    from livefix.analysis import counts, geo, jumps, sky, trend
 
     mod = load_ext("livefix.analysis._epochcore", path)
     livefix.analysis._epochcore = mod  # type: ignore[attr-defined]
@@ -222,7 +225,9 @@ def load_epoch_core(path: str) -> ModuleType:
     trend._CORE = counts.load_core("configure_trend", trend._BUCKET_LEN)
     sky._CORE = counts.load_core("configure_sky", sky.SatObs, sky.Epoch, sky._ROW, sky._COL, sky.SAMPLE_S,
                                  sky.MIN_TRACKED, sky.MAX_SEEN)
-    if not (counts._CORE is trend._CORE is sky._CORE is mod):
+    geo._CORE = counts.load_core("configure_geo", geodesy.geodetic_to_ecef, geo._frame_at, geodesy.A, geodesy.E2)
+    jumps._CORE = counts.load_core("configure_jumps", jumps._Centre, jumps.WARMUP, jumps._EW_A, math.hypot)
+    if not (counts._CORE is trend._CORE is sky._CORE is geo._CORE is jumps._CORE is mod):
         raise RuntimeError(f"{path}: not a usable build of livefix.analysis._epochcore")
     return mod
 

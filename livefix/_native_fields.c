@@ -6,6 +6,7 @@
  */
 #include "_native.h"
 #include <datetime.h>  /* its C API pointer is per file: only this file makes dates and times */
+#include <float.h>  /* FLT_EVAL_METHOD */
 #include <math.h>
 #include <string.h>
 
@@ -63,21 +64,45 @@ PyObject *nat_conv_int(const char *s, Py_ssize_t n)
     return PyLong_FromLongLong(neg ? -v : v);
 }
 
+/* Exact doubles for the short path below: 10^0..10^22 are all exactly representable. */
+static const double POW10[23] = {1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11,
+                                 1e12, 1e13, 1e14, 1e15, 1e16, 1e17, 1e18, 1e19, 1e20, 1e21, 1e22};
+#define EXACT_INT_MAX 9007199254740992ULL  /* 2^53: every integer up to it is a double */
+
 /* The text of a plain decimal [+-]?[0-9]*(.[0-9]*)? with at least one digit -> double, exactly as
- * float() (both use the interpreter's correctly rounded PyOS_string_to_double). 0 when not plain. */
+ * float(). 0 when not plain.
+ *
+ * Short texts (digits as an integer m <= 2^53, at most 22 decimals) take m / 10^k: both operands
+ * are exact doubles and one IEEE division (round to nearest) is correctly rounded, so this is the
+ * one correctly rounded value: the same bits as the interpreter's PyOS_string_to_double, which is
+ * correctly rounded too (its own fast case is this division, for up to 15 digits). Why: on x86
+ * builds that routine switches the x87 control word around every call, and the switch cost more
+ * than the rest of a GGA's decoding. Needs doubles evaluated as doubles (FLT_EVAL_METHOD 0: SSE2,
+ * ARM, ...); elsewhere, and for longer texts, the interpreter's routine itself is called. */
 static int plain_double(const char *s, Py_ssize_t n, double *out)
 {
     char buf[MAX_NUM + 1];
-    Py_ssize_t i = 0, digits = 0;
-    int dot = 0;
+    Py_ssize_t i = 0, digits = 0, frac = 0;
+    int dot = 0, neg = 0;
+    unsigned long long m = 0;
     if (n < 1 || n > MAX_NUM) return 0;
-    if (s[0] == '-' || s[0] == '+') i = 1;
+    if (s[0] == '-' || s[0] == '+') { neg = s[0] == '-'; i = 1; }
     for (; i < n; i++) {
-        if (is_digit(s[i])) digits++;
-        else if (s[i] == '.' && !dot) dot = 1;
+        if (is_digit(s[i])) {
+            digits++;
+            frac += dot;
+            if (m <= EXACT_INT_MAX) m = m * 10 + (unsigned)(s[i] - '0');  /* no wrap: m <= 2^53 before */
+        } else if (s[i] == '.' && !dot) dot = 1;
         else return 0;
     }
     if (!digits) return 0;
+#if defined(FLT_EVAL_METHOD) && FLT_EVAL_METHOD == 0
+    if (m <= EXACT_INT_MAX && frac <= 22) {
+        double v = (double)m / POW10[frac];
+        *out = neg ? -v : v;
+        return 1;
+    }
+#endif
     memcpy(buf, s, (size_t)n);
     buf[n] = '\0';
     char *end = NULL;

@@ -1,6 +1,9 @@
 /* livefix.analysis._epochcore: three per-epoch passes of the statistics in C: the satellite counts of
  * livefix/analysis/counts.py (epoch_counts), the bucket sums of livefix/analysis/trend.py
- * (Trend.add_values) and the sky sampling of livefix/analysis/sky.py (SkyMap.on_epoch).
+ * (Trend.add_values) and the sky sampling of livefix/analysis/sky.py (SkyMap.on_epoch); and the
+ * E/N/U projection memo of livefix/analysis/geo.py (the types EcefMemo and Projector,
+ * _epochcore_geo.c) and the settled case of livefix/analysis/jumps.py (Jumps.check,
+ * _epochcore_jumps.c), each with its own notes.
  *
  * Why: these are plain loops over numbers and over the epoch's satellite tuple, run every epoch;
  * the Python code stays the reference. Each function does the same operations in the same order
@@ -16,7 +19,9 @@
  * tests/analysis/test_epochcore_native.py compares the two step by step.
  *
  * The module's files: this one (the module and the configure_* functions), _epochcore_counts.c,
- * _epochcore_trend.c and _epochcore_sky.c (one pass each) and their private header _epochcore.h
+ * _epochcore_trend.c and _epochcore_sky.c (one pass each), _epochcore_geo.c (the projection memo
+ * and configure_geo), _epochcore_jumps.c (jumps_settled and configure_jumps) and their private
+ * header _epochcore.h
  * (the value checks the passes share).
  */
 #include "_epochcore.h"
@@ -147,7 +152,16 @@ static PyMethodDef methods[] = {
     {"configure_sky", configure_sky, METH_VARARGS,
      "configure_sky(sat_type, epoch_type, row, col, sample_s, min_tracked, max_seen): the types, grid tables\n"
      "and constants of livefix.analysis.sky."},
+    {"configure_geo", ep_configure_geo, METH_VARARGS,
+     "configure_geo(geodetic_to_ecef, frame_at, a, e2): the conversion of livefix.geodesy (for odd values),\n"
+     "the frame maker of livefix.analysis.geo and the WGS 84 constants A and E2."},
+    {"configure_jumps", ep_configure_jumps, METH_VARARGS,
+     "configure_jumps(centre_type, warmup, ew_a, hypot): the centre type and constants of livefix.analysis.jumps\n"
+     "and math.hypot."},
     {"counts", ep_counts, METH_O, counts_doc},
+    {"jumps_settled", (PyCFunction)(void (*)(void))ep_jumps_settled, METH_FASTCALL,
+     "jumps_settled(jumps, fix, e, n, u) -> bool\n\nJumps.check for a settled epoch, in place; False (nothing changed)\n"
+     "when the Python code must do the check."},
     {"trend_add", (PyCFunction)(void (*)(void))ep_trend_add, METH_FASTCALL, trend_add_doc},
     {"sky_epoch", (PyCFunction)(void (*)(void))ep_sky_epoch, METH_FASTCALL, sky_epoch_doc},
     {NULL, NULL, 0, NULL},
@@ -155,7 +169,9 @@ static PyMethodDef methods[] = {
 
 static struct PyModuleDef moduledef = {
     PyModuleDef_HEAD_INIT, "livefix.analysis._epochcore",
-    "C twin of three per-epoch passes of livefix.analysis (counts, trend, sky); the Python code is the reference.",
+    "C twin of three per-epoch passes of livefix.analysis (counts, trend, sky), of its projection memo (geo)\n"
+    "and of the settled case of its jump check (jumps);\n"
+    "the Python code is the reference.",
     -1, methods, NULL, NULL, NULL, NULL,
 };
 
@@ -171,7 +187,7 @@ PyMODINIT_FUNC PyInit__epochcore(void)
         if (*names[k].var == NULL && (*names[k].var = PyUnicode_InternFromString(names[k].name)) == NULL)
             return NULL;
     PyObject *m = PyModule_Create(&moduledef);
-    if (m != NULL && PyModule_AddIntConstant(m, "API", API) < 0)
+    if (m != NULL && (PyModule_AddIntConstant(m, "API", API) < 0 || ep_geo_add_types(m) < 0))
         Py_CLEAR(m);
     return m;
 }

@@ -1,8 +1,9 @@
 /* livefix.analysis._epochcore: the declarations its source files share (private to the module).
  *
  * The module is built from _epochcore.c (the module and the configure_* functions: the types,
- * tables and constants), _epochcore_counts.c (counts()), _epochcore_trend.c (trend_add()) and
- * _epochcore_sky.c (sky_epoch()). The value checks and list updates the passes share are static
+ * tables and constants), _epochcore_counts.c (counts()), _epochcore_trend.c (trend_add()),
+ * _epochcore_sky.c (sky_epoch()), _epochcore_geo.c (the types EcefMemo and Projector, and
+ * configure_geo()) and _epochcore_jumps.c (jumps_settled() and configure_jumps()). The value checks and list updates the passes share are static
  * inline here; everything else shared has the ep_ prefix and hidden visibility, so the extension
  * exports nothing but its init function.
  */
@@ -47,6 +48,14 @@ EP_HIDDEN int ep_ready(int part); /* part, or 0 with RuntimeError when that part
 EP_HIDDEN PyObject *ep_counts(PyObject *mod, PyObject *ep);
 EP_HIDDEN PyObject *ep_trend_add(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 EP_HIDDEN PyObject *ep_sky_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
+
+/* the projection memo: _epochcore_geo.c (its configuration lives there too) */
+EP_HIDDEN PyObject *ep_configure_geo(PyObject *mod, PyObject *args);
+EP_HIDDEN int ep_geo_add_types(PyObject *m); /* the types EcefMemo and Projector: 0, or -1 with an error */
+
+/* the settled case of Jumps.check: _epochcore_jumps.c (its configuration lives there too) */
+EP_HIDDEN PyObject *ep_configure_jumps(PyObject *mod, PyObject *args);
+EP_HIDDEN PyObject *ep_jumps_settled(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 
 /* ---- values ---- */
 

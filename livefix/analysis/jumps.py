@@ -14,6 +14,9 @@ Rule, per fix type (thresholds in AnalysisConfig, shown in the snapshot):
 - the excursion closes when the position has been back within that limit for jump_hold_s (the
   re-convergence is part of the excursion), or, when it stays away, after jump_level_s as a new
   level: the centre moves there (the antenna was moved or the solution settled elsewhere).
+
+The settled case of `check` (nearly every epoch of a standing receiver) has a C twin,
+livefix/analysis/_epochcore_jumps.c, which hands every other case back to this code, the reference.
 """
 
 from __future__ import annotations
@@ -23,6 +26,7 @@ from collections import deque
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.analysis.counts import load_core, pick_core
 from livefix.analysis.streaming import num
 from livefix.timefmt import iso
 
@@ -64,11 +68,16 @@ class _Centre:
             self.vu = (1 - b) * (self.vu + b * du * du)
 
 
+_CORE = load_core("configure_jumps", _Centre, WARMUP, _EW_A, math.hypot)  # the settled case in C
+
+
 class Jumps:
     """Excursion detector for all fix types; `check` says whether an epoch belongs in the scatter."""
 
-    def __init__(self, config: AnalysisConfig) -> None:
+    def __init__(self, config: AnalysisConfig, native: bool | None = None) -> None:
+        """native: the settled case in C (counts.pick_core: None as LIVEFIX_PURE says)."""
         self.cfg = config
+        self._core = pick_core(_CORE, native)
         self.lim_h = dict(config.converge_h)
         self.lim_v = dict(config.converge_v)
         self._lims: dict[str, tuple[float, float, float]] = {}  # fix -> (k, radius h, radius v), as limits reads them
@@ -90,6 +99,9 @@ class Jumps:
     def check(self, fix: str, t: float, abs_t: float | None, e: float, n: float, u: float) -> bool:
         """True when the epoch (session time t) is settled behaviour, False inside an excursion.
         `limits` and `_Centre.add` are spelt out here for the settled case (a call each per epoch)."""
+        core = self._core
+        if core is not None and core.jumps_settled(self, fix, e, n, u):
+            return True
         c = self.centres.get(fix)
         if c is None:
             c = self.centres[fix] = _Centre()

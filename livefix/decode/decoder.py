@@ -59,6 +59,8 @@ _new = object.__new__
 _ReadOnly = MappingProxyType
 _set_talker, _set_id, _set_fields, _set_prop = (Decoded.talker.__set__, Decoded.msg_id.__set__,
                                                 Decoded.fields.__set__, Decoded.proprietary.__set__)
+# Decoded's slots in field order: the C core's make() sets all four in one call (with the core only)
+_SLOTS = (Decoded.talker, Decoded.msg_id, Decoded.fields, Decoded.proprietary)
 
 
 class Decoder:
@@ -92,6 +94,7 @@ class Decoder:
         elif native and _CORE is None:
             raise RuntimeError("the C core livefix._native is not built")
         self._native = _CORE.decode if native and _CORE is not None else None
+        self._make = _CORE.make if native and _CORE is not None else None
 
     @property
     def counters(self) -> DecodeCounters:
@@ -188,12 +191,18 @@ class Decoder:
             hdr = hit[0]
             pend = self._pending
             pend[hdr] = pend.get(hdr, 0) + 1
-            d = _new(Decoded)
-            _set_talker(d, hit[1])
-            _set_id(d, hit[2])
             # a cached value is shared from now on: read-only, so no consumer can change it
-            _set_fields(d, fields if lines is None else _ReadOnly(fields))
-            _set_prop(d, False)
+            if lines is not None:
+                fields = _ReadOnly(fields)
+            make = self._make
+            if make is not None:
+                d = make(_SLOTS, (hit[1], hit[2], fields, False))
+            else:
+                d = _new(Decoded)
+                _set_talker(d, hit[1])
+                _set_id(d, hit[2])
+                _set_fields(d, fields)
+                _set_prop(d, False)
             if lines is not None:
                 lines[line] = (hdr, d, gsv)
             return d

@@ -15,10 +15,11 @@ from typing import Any
 
 from livefix.decode import Decoded, Rejected
 from livefix.items import Link, LinkEvent, Marker
+from livefix.state import model_native
 from livefix.state.clock import UtcClock
 from livefix.state.epoch import Epoch, Event, SatObs, make_epoch
 from livefix.state.gsv import make_assembler
-from livefix.state.sky import Sky
+from livefix.state.sky import make_sky
 from livefix.state.texts import ReceiverTexts
 from livefix.state.used import make_used_tracker, solution_gsa
 
@@ -90,12 +91,12 @@ class _Open:
 
 
 class StateModel:
-    def __init__(self, sky_timeout_s: float = 5.0) -> None:
+    def __init__(self, sky_timeout_s: float = 5.0, native: bool | None = None) -> None:
         self._open: _Open | None = None
         self._clock = UtcClock()
         self._gsv = make_assembler()  # the C twin when built (livefix/state/_gsvcore.c)
         self._gsa = make_used_tracker()  # GSA used lists of the open epoch (the C twin when built)
-        self._sky = Sky(sky_timeout_s)
+        self._sky = make_sky(sky_timeout_s)  # the C twin when built (livefix/state/_skycore.c)
         self._used: frozenset[tuple[str, int]] = frozenset()
         self._used_sorted: tuple[tuple[str, int], ...] = ()
         self._events: list[Event] = []
@@ -117,6 +118,7 @@ class StateModel:
         self._gst_ahead: tuple[float, Any] | None = None  # a GST for a time not yet open
         self._tod_of: object = None  # the last time-of-fix object seen, and its seconds of day
         self._tod: float | None = None
+        model_native.attach(self, _CORE, _CORE_HELPERS, native)  # on_sentence/_close in C when built
 
     # -- stream items --------------------------------------------------------------------
     @property
@@ -401,3 +403,6 @@ _HANDLERS = {
     "ZDA": StateModel._on_dated, "GST": StateModel._on_gst, "GGA": StateModel._on_fix,
     "GNS": StateModel._on_fix, "GLL": StateModel._on_fix,
 }
+# what the C twin of on_sentence/_close takes from here (livefix/state/model_native.py)
+_CORE = model_native.load((MAX_SENTENCES, UNTIMED_GAP_S, _HALF_DAY, KNOT_MPS))
+_CORE_HELPERS = (solution_gsa, _quality, _datum, _tod_of, make_epoch, _dt.date, _dt.timedelta(days=1), TIMED, Decoded)

@@ -6,13 +6,17 @@ re-exported here for callers that import them from the sky.
 
 from __future__ import annotations
 
+from types import ModuleType
+
+from livefix.corepick import built_core, pick_core
 from livefix.state.epoch import TALKER_SYSTEM, SatObs, make_satobs
 from livefix.state.gsv import GsvAssembler, RawSat
 from livefix.state.prn import user_prn
 
-__all__ = ["GsvAssembler", "RawSat", "Sky", "SYSTEM_ORDER", "talker_system", "user_prn"]
+__all__ = ["GsvAssembler", "RawSat", "Sky", "SYSTEM_ORDER", "make_sky", "talker_system", "user_prn"]
 
 SYSTEM_ORDER = {s: i for i, s in enumerate("GRECJIS")}
+SKY_API = 1  # the C twin's constructor and methods (livefix/state/_skycore.h SKY_API)
 
 
 def talker_system(talker: str) -> str | None:
@@ -122,3 +126,22 @@ class Sky:
         rows = list(merged.values())
         return [rows[i] for i in self._order[1]]
 
+
+def _built_core() -> ModuleType | None:
+    """The C twin (livefix/state/_skycore.c) when it was built for this module's API, else None
+    (an older build is not used; tests/state/test_sky_native.py fails on it)."""
+    return built_core("livefix.state._skycore", ("SKY_API",), (SKY_API,))
+
+
+_CORE = _built_core()
+
+
+def make_sky(timeout_s: float = 5.0, max_groups: int = 64, native: bool | None = None) -> Sky:
+    """A sky store: the C twin when built (same results and object identities, several times
+    faster per call), else Sky, the reference. native None: the C twin unless LIVEFIX_PURE is "1"
+    (as livefix.framing.native_core()); True: the C twin or RuntimeError (tests); False: the
+    reference. The twin's timeout_s and max_groups are read-only."""
+    core = pick_core(_CORE, native, "the C core livefix.state._skycore is not built (or built for another API)")
+    if core is not None:
+        return core.Sky(timeout_s, max_groups, SatObs, SYSTEM_ORDER)  # type: ignore[no-any-return]
+    return Sky(timeout_s, max_groups)

@@ -1,0 +1,107 @@
+/* livefix.state._statecore: the declarations its source files share (private to the module).
+ *
+ * The module is built from _statecore.c (the EpochCore type and the module), _statecore_line.c
+ * (on_sentence's prelude: dispatch and the open epoch's bookkeeping), _statecore_add.c (the per-type handlers of
+ * livefix/state/model.py and a C twin of used.solution_gsa) and _statecore_close.c (_close:
+ * one Epoch from the open epoch). Everything shared between them has the st_ prefix (or is a type
+ * or a static inline helper) and hidden visibility, so the extension exports nothing but its init.
+ */
+#ifndef LIVEFIX_STATECORE_H
+#define LIVEFIX_STATECORE_H
+
+#define PY_SSIZE_T_CLEAN
+#include <Python.h>
+#include <stdint.h>
+#include "../_corekit.h"
+
+#if defined(__GNUC__) && !defined(_WIN32)
+#define ST_HIDDEN __attribute__((visibility("hidden")))
+#else
+#define ST_HIDDEN
+#endif
+
+#define MAX_SENTENCES 64     /* livefix.state.model.MAX_SENTENCES */
+#define UNTIMED_GAP_S 2.0    /* livefix.state.model.UNTIMED_GAP_S */
+#define HALF_DAY_S 43200.0   /* livefix.state.model._HALF_DAY */
+#define KNOT_MPS (1852.0 / 3600.0) /* livefix.state.model.KNOT_MPS, the same division */
+
+/* A timed sentence's key (talker + msg id): the two strings when both are exact str (the
+ * concatenation is then never made), else the concatenation itself in `key`. */
+typedef struct { PyObject *talker, *mid, *key; } Key;
+
+/* The model module's helpers (handed over by livefix/state/model_native.py, in this order), then
+ * the model's collaborators and their bound methods (fetched from the model's dict when first used
+ * and again whenever the model holds another collaborator: st_method, st_collab). */
+enum {
+    C_SOLUTION_GSA, C_QUALITY, C_DATUM, C_TOD_OF, C_MAKE_EPOCH, C_DATE, C_ONE_DAY, C_TIMED, C_DECODED, NHELP,
+    C_GSV = NHELP, C_GSA, C_SKY, C_CLOCK,
+    C_GSV_ADD, C_GSA_ADD, C_GSA_NOTE, C_GSA_CLOSE, C_SKY_REPLACE, C_SKY_EXPIRE, C_SKY_IN_VIEW, C_SKY_OBS,
+    C_CLOCK_RESOLVE, NCALL
+};
+
+typedef struct {
+    PyObject_HEAD
+    PyObject *model, *dict;      /* the model and its __dict__, where the attributes it publishes are written */
+    PyObject *call[NCALL];
+    Py_ssize_t off[4];           /* slots of Decoded: talker, msg_id, fields, proprietary */
+    PyObject *tod_of;            /* the last time-of-fix object seen (model._tod_of) */
+    int has_tod, has_closed, has_ahead, busy;
+    double tod, closed_tod, ahead_t; /* model._tod, ._closed_tod, ._gst_ahead[0] */
+    PyObject *ahead_f;           /* model._gst_ahead[1] */
+    PyObject *used, *used_sorted; /* model._used, ._used_sorted */
+    /* the open epoch (model._Open) */
+    int open, o_has_tod, o_has_date_tod, nsent;
+    double o_tod, o_date_tod;
+    PyObject *o_mono, *o_wall, *o_by_type, *o_used, *o_date;
+    Key *keys;
+    Py_ssize_t nkeys, keys_cap;
+    PyObject *sent[MAX_SENTENCES];
+} Core;
+
+/* interned names (_statecore_line.c, set once by the module init) */
+ST_HIDDEN extern PyObject *st_s_get, *st_s_time, *st_s_lat, *st_s_lon, *st_s_GSA, *st_s_GST, *st_s_GGA,
+    *st_s_GNS, *st_s_RMC, *st_s_GLL, *st_s_VTG, *st_s_DTM, *st_s_late, *st_s_gsv_unreported,
+    *st_s_last_unknown, *st_s_GSV, *st_s_gst_ahead, *st_s_mono;
+
+/* f.get(name): a new reference */
+static inline PyObject *st_get(PyObject *f, PyObject *name)
+{
+    PyObject *d = NULL;
+    if (PyDict_CheckExact(f)) d = f;
+    else if (Py_IS_TYPE(f, &PyDictProxy_Type)) d = kit_plain_dict(f);
+    return kit_field(d, f, name, NULL, st_s_get);
+}
+
+/* _statecore_line.c: on_sentence's prelude (the model's on_sentence); a new reference */
+ST_HIDDEN int st_line_init(void); /* interned names, the datetime C API: once, from the module init */
+ST_HIDDEN PyObject *st_on_sentence(Core *s, PyObject *msg, PyObject *mono, PyObject *wall);
+ST_HIDDEN PyObject *st_attr(Core *s, PyObject *msg, int k); /* 0 talker, 1 msg_id, 2 fields, 3 proprietary */
+ST_HIDDEN int st_is_date(PyObject *d); /* isinstance(d, datetime.date) */
+
+/* _statecore.c: the model's current collaborator obj (C_GSV ...) or one of its bound methods
+ * (C_GSV_ADD ...), borrowed; NULL on error. model.<name>(*args), looked up as the reference does. */
+ST_HIDDEN PyObject *st_collab(Core *s, int obj);
+ST_HIDDEN PyObject *st_method(Core *s, int m);
+ST_HIDDEN PyObject *st_call_model(Core *s, const char *name, PyObject *const *args, size_t n);
+
+/* seconds of day of a datetime.time (model._tod_of): 1 and *out, 0 for anything else, -1 error */
+ST_HIDDEN int st_tod_of(Core *s, PyObject *t, double *out);
+/* model.<name> += 1 in the model's dict */
+ST_HIDDEN int st_count(Core *s, PyObject *name);
+/* model._gst_ahead written back from the C state */
+ST_HIDDEN int st_put_ahead(Core *s);
+
+/* _statecore_add.c: the handlers; 0 or -1 with an error set */
+ST_HIDDEN int st_add_init(void);
+ST_HIDDEN int st_on_fix(Core *s, PyObject *mid, PyObject *f);
+ST_HIDDEN int st_on_dated(Core *s, PyObject *msg, PyObject *mid, int rmc);
+ST_HIDDEN int st_on_gst(Core *s, PyObject *msg);
+ST_HIDDEN int st_on_gsa(Core *s, PyObject *msg);
+ST_HIDDEN int st_on_gsv(Core *s, PyObject *msg, PyObject *mono, PyObject *wall);
+
+/* _statecore_close.c: model._close(); a new Epoch */
+ST_HIDDEN int st_close_init(void);
+ST_HIDDEN PyObject *st_close(Core *s);
+ST_HIDDEN void st_open_clear(Core *s);
+
+#endif
