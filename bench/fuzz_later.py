@@ -7,8 +7,10 @@ printed as RESULT lines (bench/RESULTS.md reads them).
 
 from __future__ import annotations
 
+import importlib
 import sys
 import time
+from collections.abc import Callable
 
 from fuzz_dop import dop_diff, load_dop_core, used_diff
 from fuzz_epochcore import diff as epochcore_diff
@@ -31,67 +33,53 @@ TWIN_LOADERS = {
 }
 
 
-def later_twins(n: int, seed: int) -> int:
-    """The differentials of the later twins (DOP solve and used pass, GSA used tracker, per-epoch
-    passes, projection memo and jump check, sky store, epoch assembly, decimal numbers of the decoder), each against
-    its Python reference; returns the disagreements in all."""
-    from livefix.analysis import counts, dopsolve, geo
-    from livefix.state import model, sky, used
+def _dop(n: int, seed: int) -> tuple[int, int, list[str], str]:
+    k, handed, b, examples = dop_diff(n, seed)
+    return k, b, examples, f"{k:,} ({handed:,} handed back)"
 
+
+def _dop_used(n: int, seed: int) -> tuple[int, int, list[str], str]:
+    k, handed, b, examples = used_diff(n, seed)
+    return k, b, examples, f"{k:,} ({handed:,} handed back)"
+
+
+def _decimal(n: int, seed: int) -> tuple[int, int, list[str], str]:
+    k, _, b, examples = decimal_diff(n, seed, sys.modules.get("livefix._native"))  # the build loaded
+    return k, b, examples, f"{k:,}"
+
+
+def _plain(diff: Callable[[int, int], tuple[int, int, list[str]]]) -> Callable[[int, int], tuple]:
+    def run(n: int, seed: int) -> tuple[int, int, list[str], str]:
+        k, b, examples = diff(n, seed)
+        return k, b, examples, f"{k:,}"
+    return run
+
+
+# (twin, unit, module whose _CORE says the twin is built, its extension, differential, share of n, need)
+LATER = (
+    ("DOP solve", "geometries", "livefix.analysis.dopsolve", "_dopcore", _dop, 1.0, 200_000),
+    ("DOP used pass", "epochs", "livefix.analysis.dopsolve", "_dopcore", _dop_used, 0.25, 50_000),
+    ("GSA used tracker", "calls", "livefix.state.used", "_usedcore", _plain(tracker_diff), 0.1, 20_000),
+    ("per-epoch passes", "epochs", "livefix.analysis.counts", "_epochcore", _plain(epochcore_diff), 0.5, 100_000),
+    ("projection memo", "calls", "livefix.analysis.geo", "_epochcore", _plain(geo_diff), 1.0, 200_000),
+    ("jump check", "epochs", "livefix.analysis.jumps", "_epochcore", _plain(jumps_diff), 0.1, 20_000),
+    ("sky store", "calls", "livefix.state.sky", "_skycore", _plain(sky_diff), 0.5, 100_000),
+    ("epoch assembly", "calls", "livefix.state.model", "_statecore", _plain(state_diff), 0.1, 20_000),
+    ("decimal numbers", "texts", "livefix.decode.decoder", "_native", _decimal, 5.0, 1_000_000),
+)
+
+
+def later_twins(n: int, seed: int) -> int:
+    """The differentials of the later twins (LATER), each against its Python reference, on a share of
+    n calls; returns the disagreements in all."""
     bad = 0
-    if dopsolve._CORE is None:
-        print("DOP solve: livefix.analysis._dopcore not built, not compared", file=sys.stderr)
-    else:
+    for twin, unit, module, ext, diff, share, need in LATER:
+        if getattr(importlib.import_module(module), "_CORE", None) is None:
+            print(f"{twin}: {ext} not built, not compared", file=sys.stderr)
+            continue
         t0 = time.perf_counter()
-        k, handed, b, examples = dop_diff(n, seed)
-        twin_results("DOP solve", "geometries", k, f"{k:,} ({handed:,} handed back)", 200_000, b, examples, t0)
-        t0 = time.perf_counter()
-        k, handed, b2, examples = used_diff(n // 4, seed)
-        twin_results("DOP used pass", "epochs", k, f"{k:,} ({handed:,} handed back)", 50_000, b2, examples, t0)
-        bad += b + b2
-    if used._CORE is None:
-        print("GSA used tracker: livefix.state._usedcore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, b, examples = tracker_diff(n // 10, seed)
-        twin_results("GSA used tracker", "calls", k, f"{k:,}", 20_000, b, examples, t0)
-        bad += b
-    if counts._CORE is None:
-        print("per-epoch passes: livefix.analysis._epochcore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, b, examples = epochcore_diff(n // 2, seed)
-        twin_results("per-epoch passes", "epochs", k, f"{k:,}", 100_000, b, examples, t0)
-        bad += b
-    if geo._CORE is None:
-        print("projection memo and jump check: livefix.analysis._epochcore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, b, examples = geo_diff(n, seed)
-        twin_results("projection memo", "calls", k, f"{k:,}", 200_000, b, examples, t0)
-        t0 = time.perf_counter()
-        k, b2, examples = jumps_diff(n // 10, seed)
-        twin_results("jump check", "epochs", k, f"{k:,}", 20_000, b2, examples, t0)
-        bad += b + b2
-    if sky._CORE is None:
-        print("sky store: livefix.state._skycore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, b, examples = sky_diff(n // 2, seed)
-        twin_results("sky store", "calls", k, f"{k:,}", 100_000, b, examples, t0)
-        bad += b
-    if model._CORE is None:
-        print("epoch assembly: livefix.state._statecore not built, not compared", file=sys.stderr)
-    else:
-        t0 = time.perf_counter()
-        k, b, examples = state_diff(n // 10, seed)
-        twin_results("epoch assembly", "calls", k, f"{k:,}", 20_000, b, examples, t0)
-        bad += b
-    core = sys.modules.get("livefix._native")  # the build loaded (the sanitizer one under --asan)
-    if core is not None:
-        t0 = time.perf_counter()
-        k, _, b, examples = decimal_diff(n * 5, seed, core)
-        twin_results("decimal numbers", "texts", k, f"{k:,}", 1_000_000, b, examples, t0)
+        k, b, examples, count = diff(int(n * share), seed)
+        twin_results(twin, unit, k, count, need, b, examples, t0)
         bad += b
     return bad
 

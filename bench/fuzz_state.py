@@ -253,14 +253,3 @@ def load_state_core(path: str) -> None:
     mod = load_ext("livefix.state._statecore", path)
     livefix.state._statecore = mod  # type: ignore[attr-defined]
     model._CORE = mod
-
-
-if __name__ == "__main__":
-    import sys
-    from pathlib import Path
-
-    sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
-    if len(sys.argv) > 3:  # a sanitizer build of the extension
-        load_state_core(sys.argv[3])
-    n = int(sys.argv[1]) if len(sys.argv) > 1 else 100_000
-    print("RESULT state calls={} disagreements={} {}".format(*state_diff(n, int(sys.argv[2]) if len(sys.argv) > 2 else 1)))
