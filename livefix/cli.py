@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import argparse
 import importlib
+import os
 import sys
 
 # name -> (module with add_arguments(parser) and run(args) -> int, one-line help)
@@ -33,7 +34,17 @@ def build_parser(only: str | None = None) -> argparse.ArgumentParser:
     return p
 
 
+def _one_blas_thread() -> None:
+    """Before numpy loads: one OpenBLAS thread. Its default pool starts a thread per core that spins
+    waiting for work; livefix's matrices have a handful of rows (DOP, small fits), so the pool only
+    burns CPU on a small computer (about 0.1 s per process on a 2-core host, bench/RESULTS.md). A value
+    the user set wins, and child processes (livefix.parallel) inherit it."""
+    if "numpy" not in sys.modules:
+        os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
+
+
 def main(argv: list[str] | None = None) -> int:
+    _one_blas_thread()
     argv = list(sys.argv[1:] if argv is None else argv)
     chosen = next((a for a in argv if not a.startswith("-")), None)
     only = chosen if chosen in COMMANDS else None

@@ -41,7 +41,7 @@ from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
 from livefix.contracts import Analysis
-from livefix.state.epoch import Epoch, SatObs
+from livefix.state.epoch import Epoch, SatObs, make_epoch, make_satobs
 
 BATCH_EPOCHS = 256  # epochs per message: large enough to amortise pickling, small enough to stream
 SATS_TABLE_MAX = 256  # satellite tuples remembered by id on both sides (bounded)
@@ -110,13 +110,15 @@ class Replayer:
             lambda r: rejected(r[1], r[2], r[3]),
             lambda r: event(r[1]),
             lambda r: epoch(self.epoch(r)),
-            lambda r: self._sats.__setitem__(r[1], tuple(SatObs(*s) for s in r[2])),
+            lambda r: self._sats.__setitem__(r[1], tuple([make_satobs(s) for s in r[2]])),
             lambda r: self._sats.clear(),
         )
 
     def epoch(self, r: tuple) -> Epoch:
+        # make_epoch: the slots filled at once, as the state model builds them (Epoch's frozen
+        # __init__ sets each field through object.__setattr__, several times slower)
         k = _SATS_AT + 2
-        return Epoch(*r[2:k], self._sats[r[1]], *r[k:])
+        return make_epoch(r[2:k] + (self._sats[r[1]],) + r[k:])
 
     def run(self, records: list[tuple]) -> None:
         do = self._do

@@ -9,8 +9,6 @@ the GSV parts, the sky and the event queue all have caps, so memory does not gro
 from __future__ import annotations
 
 import datetime as _dt
-from collections.abc import Mapping
-from types import MappingProxyType
 from typing import Any
 
 from livefix.decode import Decoded, Rejected
@@ -18,6 +16,11 @@ from livefix.items import Link, LinkEvent, Marker
 from livefix.state import model_native
 from livefix.state.clock import UtcClock
 from livefix.state.epoch import Epoch, Event, SatObs, make_epoch
+from livefix.state.fieldvals import NONE as _NONE
+from livefix.state.fieldvals import NUM as _NUM
+from livefix.state.fieldvals import datum as _datum
+from livefix.state.fieldvals import first as _first
+from livefix.state.fieldvals import num as _num
 from livefix.state.gsv import make_assembler
 from livefix.state.sky import make_sky
 from livefix.state.texts import ReceiverTexts
@@ -49,30 +52,6 @@ TXT_MAX = 120  # characters of receiver text kept in an event
 # A marker note starting with this says livefix itself restarted the receiver at that moment; it is
 # recorded like any marker, so a replay sees the restart at the same place in the stream.
 RESTART_NOTE = "receiver restart"
-
-
-def _datum(dtm: Any) -> tuple[str, str] | None:
-    """(local datum, reference datum) of a DTM sentence (NMEA 0183), None without one."""
-    if not dtm:
-        return None
-    local = str(dtm.get("datum") or "")
-    return (local + (f"/{dtm['subDatum']}" if dtm.get("subDatum") else ""), str(dtm.get("refDatum") or ""))
-
-
-_NUM = (int, float)
-_NONE: Mapping[str, Any] = MappingProxyType({})  # an absent sentence's fields
-
-
-def _num(v: Any) -> float | None:
-    return float(v) if type(v) in _NUM else None
-
-
-def _first(*vals: Any) -> float | None:
-    for v in vals:
-        n = _num(v)
-        if n is not None:
-            return n
-    return None
 
 
 class _Open:
