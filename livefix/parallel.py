@@ -25,6 +25,7 @@ may hold source threads or locks).
 from __future__ import annotations
 
 import dataclasses
+import gc
 import os
 import pickle
 import select
@@ -153,6 +154,9 @@ def serve(rfd: int, wfd: int) -> int:
     """The analysis process: config, then batches and snapshot requests until stop or end of input."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the front handles Ctrl-C and stops us
     from livefix.analysis.engine import Analyzer
+    from livefix.batchgc import BATCH_GC_THRESHOLD
+
+    gc.set_threshold(*BATCH_GC_THRESHOLD)  # this process only ever runs a batch (livefix.batchgc)
 
     replay: Replayer | None = None
     try:

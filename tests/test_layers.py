@@ -29,6 +29,7 @@ RANKS: dict[str, int] = {
     "livefix.site": 0,
     "livefix.faults": 0,
     "livefix.corepick": 0,
+    "livefix.batchgc": 0,
     # 1: the simulated receiver, a maker of bytes below the sources
     "livefix.sim": 1,
     # 2: byte sources, and the recording format they read and the reader thread writes

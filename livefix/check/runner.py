@@ -133,10 +133,13 @@ class CheckRun:
         return self._report()
 
     def _run_files(self) -> None:
-        for rx in self.rxs:
-            self._run_file(rx)
-            if not self.complete:
-                break
+        from livefix.batchgc import batch_gc
+
+        with batch_gc():
+            for rx in self.rxs:
+                self._run_file(rx)
+                if not self.complete:
+                    break
 
     def _run_file(self, rx: _Rx) -> None:
         """One file through a Pipeline on this thread; with a split its analysis runs in a second

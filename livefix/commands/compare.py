@@ -51,6 +51,7 @@ def _from_stream(path: Path) -> tuple[str, dict[str, Any]]:
     import threading
 
     from livefix.analysis.config import AnalysisConfig
+    from livefix.batchgc import batch_gc
     from livefix.parallel import analyzer_for, want_split
     from livefix.pipeline import Pipeline
     from livefix.probe import check_file
@@ -61,7 +62,7 @@ def _from_stream(path: Path) -> tuple[str, dict[str, Any]]:
     if not src.finite:
         raise ValueError(f"{path}: not a file or recording")
     cfg = AnalysisConfig()
-    with analyzer_for(cfg, want_split("auto", str(path))) as analyzer:
+    with batch_gc(), analyzer_for(cfg, want_split("auto", str(path))) as analyzer:
         p = Pipeline(cfg, src.name, analyzer=analyzer)
         for item in src.items(threading.Event()):
             p.feed(item)

@@ -39,11 +39,12 @@ def add_arguments(p: argparse.ArgumentParser) -> None:
 def _analyse(src: Source, config: AnalysisConfig, split: bool) -> Snapshot:
     """The whole stream through one Pipeline; with split, its analysis runs in a second process
     (same calls, same snapshot: see livefix.parallel)."""
+    from livefix.batchgc import batch_gc
     from livefix.parallel import analyzer_for
     from livefix.pipeline import Pipeline
 
     stop = threading.Event()
-    with analyzer_for(config, split) as analyzer:
+    with batch_gc(), analyzer_for(config, split) as analyzer:
         p = Pipeline(config, src.name, analyzer=analyzer)
         for item in src.items(stop):
             p.feed(item)
