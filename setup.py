@@ -1,6 +1,6 @@
 """Build of the optional C cores (livefix._native, livefix.state._gsvcore, livefix.state._usedcore,
-livefix.state._skycore, livefix.state._statecore, livefix.analysis._sigcore, livefix.analysis._dopcore,
-livefix.analysis._epochcore: C_CORES);
+livefix.state._skycore, livefix.state._statecore, livefix.state._clockcore, livefix.analysis._sigcore,
+livefix.analysis._dopcore, livefix.analysis._epochcore: C_CORES);
 everything else is declared in pyproject.toml.
 
 Each extension is optional: when it cannot be compiled (no C compiler, no Python headers) the install
@@ -54,7 +54,7 @@ C_CORES = {
     # GSV set assembly (livefix/state/gsv.py keeps the reference and picks this one when built)
     "livefix.state._gsvcore": (
         ["livefix/state/_gsvcore.c", "livefix/state/_gsvcore_add.c", "livefix/state/_gsvcore_sets.c",
-         "livefix/state/_gsvcore_store.c"],
+         "livefix/state/_gsvcore_store.c", "livefix/state/_gsvcore_parts.c"],
         ["livefix/state/_gsvcore.h", "livefix/_corekit.h"],
     ),
     # SignalStats' satellite loops (livefix/analysis/signal.py keeps the reference, picks this one when built)
@@ -67,6 +67,8 @@ C_CORES = {
         ["livefix/state/_usedcore.c", "livefix/state/_usedcore_add.c", "livefix/state/_usedcore_close.c"],
         ["livefix/state/_usedcore.h", "livefix/_corekit.h"],
     ),
+    # the common path of UtcClock.resolve (livefix/state/clock.py keeps the reference and picks this one when built)
+    "livefix.state._clockcore": (["livefix/state/_clockcore.c"], []),
     # the sky store (livefix/state/sky.py keeps the reference Sky and picks this one when built)
     "livefix.state._skycore": (
         ["livefix/state/_skycore.c", "livefix/state/_skycore_plan.c"],

@@ -12,6 +12,7 @@ import sys
 import time
 from collections.abc import Callable
 
+from fuzz_clock import clock_diff, load_clock_core, parts_diff
 from fuzz_dop import dop_diff, load_dop_core, used_diff
 from fuzz_epochcore import diff as epochcore_diff
 from fuzz_epochcore import load_epoch_core
@@ -30,6 +31,7 @@ TWIN_LOADERS = {
     "livefix.analysis._epochcore": load_epoch_core,
     "livefix.state._skycore": load_sky_core,
     "livefix.state._statecore": load_state_core,
+    "livefix.state._clockcore": load_clock_core,
 }
 
 
@@ -66,6 +68,8 @@ LATER = (
     ("sky store", "calls", "livefix.state.sky", "_skycore", _plain(sky_diff), 0.5, 100_000),
     ("epoch assembly", "calls", "livefix.state.model", "_statecore", _plain(state_diff), 0.1, 20_000),
     ("decimal numbers", "texts", "livefix.decode.decoder", "_native", _decimal, 5.0, 1_000_000),
+    ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
+    ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
 )
 
 

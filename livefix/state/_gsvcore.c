@@ -174,7 +174,7 @@ PyMODINIT_FUNC PyInit__gsvcore(void)
     if (PyModule_AddObjectRef(mod, "GsvAssembler", (PyObject *)&AsmType) < 0
         || PyModule_AddIntConstant(mod, "MAX_PARTS", MAX_PARTS) < 0
         || PyModule_AddIntConstant(mod, "MEMO_MAX", MEMO_MAX) < 0
-        || PyModule_AddIntConstant(mod, "MAX_GROUPS", MAX_GROUPS) < 0) {
+        || PyModule_AddIntConstant(mod, "MAX_GROUPS", MAX_GROUPS) < 0 || gsv_parts_add(mod) < 0) {
         Py_DECREF(mod);
         return NULL;
     }

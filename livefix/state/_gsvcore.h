@@ -101,5 +101,7 @@ GSV_HIDDEN PyObject *gsv_result(PyObject *key, PyObject *sats, int n);
 GSV_HIDDEN extern PyObject *gsv_empty_tuple;  /* () */
 GSV_HIDDEN int gsv_add_init(void);            /* interned field names: once, from the module init */
 GSV_HIDDEN PyObject *gsv_add(Asm *s, PyObject *talker, PyObject *f);
+/* _gsvcore_parts.c: the module function part_sats (gsv._part_sats with prn.user_prn) */
+GSV_HIDDEN int gsv_parts_add(PyObject *mod);
 
 #endif

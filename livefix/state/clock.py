@@ -6,15 +6,21 @@ date forward and rolls it at midnight; a default date is reported once ("receive
 and its epochs get no UTC (their time is not the real one). A jump (livefix.dates) moves the
 clock only when the host clock vouches for it (a hole in the data) or the following epochs run on
 from it; until then the epoch gets no UTC, and a jump never confirmed is a "time_fault" event.
+
+UtcClock() gives a clock whose resolve() runs the common path in C (livefix/state/_clockcore.c,
+once an epoch) and hands every other case to the reference below, on the same attributes: the
+state model builds its clock as UtcClock(), so it gets it unchanged.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
 from collections import deque
+from types import ModuleType
 
-from livefix.dates import CONFIRM_EPOCHS, agrees, date_problem, jump_limit
-from livefix.timefmt import date_known, iso
+from livefix.corepick import built_core, pick_core
+from livefix.dates import CONFIRM_EPOCHS, JUMP_FACTOR, JUMP_MIN_S, agrees, date_problem, jump_limit
+from livefix.timefmt import UNDATED_BEFORE, date_known, iso
 
 _DAY = 86400.0
 _MEMO_MAX = 64  # remembered date verdicts; a stream has a handful of distinct dates
@@ -35,9 +41,18 @@ def _day_start(d: _dt.date) -> float:
 
 
 class UtcClock:
-    """Resolves each epoch's time of day to POSIX seconds; returns (kind, text, data) notes."""
+    """Resolves each epoch's time of day to POSIX seconds; returns (kind, text, data) notes.
 
-    def __init__(self) -> None:
+    native None: the C common path when built unless LIVEFIX_PURE is "1" (as
+    livefix.framing.native_core()); True: that or RuntimeError (tests); False: the reference.
+    A subclass is always the reference (its own methods count)."""
+
+    def __new__(cls, native: bool | None = None) -> UtcClock:
+        if cls is UtcClock and pick_core(_CORE, native, _MISSING) is not None:
+            cls = _CoreClock  # a subclass only in its resolve
+        return object.__new__(cls)
+
+    def __init__(self, native: bool | None = None) -> None:
         self.date: _dt.date | None = None  # date the last epoch fell on
         self.date_known = True  # the last epoch's date is real (receiver or host), not a stand-in
         self.time_faults = 0
@@ -193,3 +208,26 @@ class UtcClock:
         self.time_faults += 1
         notes.append(("time_fault", f"receiver time {iso(j[0])} ({j[3]:+.3f} s) not confirmed by the "
                       f"following epochs: ignored", {"step_s": j[3], "receiver_time": iso(j[0])}))
+
+
+_MISSING = "the C core livefix.state._clockcore is not built (or built with other constants)"
+
+
+def _built_core() -> ModuleType | None:
+    """The C twin when built with this module's constants, else None (a stale build is not used;
+    tests/state/test_clock_native.py fails on it)."""
+    return built_core("livefix.state._clockcore", ("UNDATED_BEFORE", "HALF_DAY_S", "JUMP_FACTOR", "JUMP_MIN_S"),
+                      (UNDATED_BEFORE, _DAY / 2, JUMP_FACTOR, JUMP_MIN_S))
+
+
+_CORE = _built_core()
+
+
+class _CoreClock(UtcClock):
+    """UtcClock with the C resolve (the Resolver below): same attributes, same results."""
+
+    __slots__ = ()
+
+
+if _CORE is not None:  # the common path in C, everything else by the reference function
+    _CoreClock.resolve = _CORE.Resolver(UtcClock.resolve, _CoreClock, deque)  # type: ignore[method-assign]

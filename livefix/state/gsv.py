@@ -200,8 +200,8 @@ def make_assembler(native: bool | None = None) -> GsvAssembler:
     LIVEFIX_PURE is "1" (as livefix.framing.native_core()); True: the C twin or RuntimeError (tests);
     False: the reference."""
     core = pick_core(_CORE, native, "the C core livefix.state._gsvcore is not built (or built with other caps)")
-    if core is not None:
-        return core.GsvAssembler(_part_sats, TALKER_SYSTEM)  # type: ignore[no-any-return]
+    if core is not None:  # its part_sats (_gsvcore_parts.c) when built with it: the same tuples
+        return core.GsvAssembler(getattr(core, "part_sats", _part_sats), TALKER_SYSTEM)  # type: ignore[no-any-return]
     return GsvAssembler()
 
 
