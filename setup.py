@@ -46,10 +46,11 @@ FLAGS = [] if sys.platform == "win32" else ["-O2", "-ffp-contract=off", "-fno-fa
 # bench/fuzz.py reads this literal (its sanitizer build compiles the same lists); the Makefile finds
 # the files by their module prefix. Headers go in `depends`: an edit rebuilds, and the sdist has them.
 C_CORES = {
-    # framing of plain blocks, decoding of the hot sentence types, make()
+    # framing of plain blocks, decoding of the hot sentence types, make(), Decoder.decode and Pipeline._lines
     "livefix._native": (
-        ["livefix/_native.c", "livefix/_native_decode.c", "livefix/_native_fields.c", "livefix/_native_make.c"],
-        ["livefix/_native.h"],
+        ["livefix/_native.c", "livefix/_native_decode.c", "livefix/_native_fields.c", "livefix/_native_make.c",
+         "livefix/_native_front.c", "livefix/_native_pump.c"],
+        ["livefix/_native.h", "livefix/_native_front.h"],
     ),
     # GSV set assembly (livefix/state/gsv.py keeps the reference and picks this one when built)
     "livefix.state._gsvcore": (

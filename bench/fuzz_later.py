@@ -15,6 +15,7 @@ from collections.abc import Callable
 from fuzz_clock import clock_diff, load_clock_core, parts_diff
 from fuzz_dop import dop_diff, load_dop_core, used_diff
 from fuzz_epochcore import diff as epochcore_diff
+from fuzz_front import front_diff
 from fuzz_epochcore import load_epoch_core
 from fuzz_geo import diff as geo_diff
 from fuzz_jumps import diff as jumps_diff
@@ -68,6 +69,7 @@ LATER = (
     ("sky store", "calls", "livefix.state.sky", "_skycore", _plain(sky_diff), 0.5, 100_000),
     ("epoch assembly", "calls", "livefix.state.model", "_statecore", _plain(state_diff), 0.1, 20_000),
     ("decimal numbers", "texts", "livefix.decode.decoder", "_native", _decimal, 5.0, 1_000_000),
+    ("decoder front", "lines", "livefix.decode.decoder", "_native", _plain(front_diff), 0.5, 100_000),
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
 )

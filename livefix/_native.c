@@ -17,6 +17,7 @@
  * private header _native.h.
  */
 #include "_native.h"
+#include "_native_front.h"
 
 PyDoc_STRVAR(split_doc,
 "split_block(data: bytes, max_len: int) -> list[bytes] | None\n\n"
@@ -94,5 +95,7 @@ static struct PyModuleDef MODULE = {PyModuleDef_HEAD_INIT, "livefix._native",
 PyMODINIT_FUNC PyInit__native(void)
 {
     if (nat_fields_init() < 0 || nat_decode_init() < 0) return NULL;
-    return PyModule_Create(&MODULE);
+    PyObject *mod = PyModule_Create(&MODULE);
+    if (mod != NULL && nat_front_add(mod) < 0) Py_CLEAR(mod);  /* DecoderFront, LinePump: _native_front.c */
+    return mod;
 }

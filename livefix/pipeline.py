@@ -21,6 +21,7 @@ Stage interfaces it relies on:
 
 from __future__ import annotations
 
+import os
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -77,10 +78,12 @@ class Snapshot:
 
 class Pipeline:
     def __init__(self, config: AnalysisConfig | None = None, source: str = "",
-                 analyzer: Analysis | None = None) -> None:
+                 analyzer: Analysis | None = None, native: bool | None = None) -> None:
         """analyzer: any livefix.contracts.Analysis (e.g. livefix.parallel's proxy for an analysis
         process); default a real Analyzer built from config. The calls it receives are the same
-        either way."""
+        either way. native: _lines in C (livefix._native.LinePump, the same calls in the same
+        order): None when built and LIVEFIX_PURE is not "1"; True: it or RuntimeError; False: the
+        Python loop below, the reference."""
         from livefix.analysis.engine import Analyzer
         from livefix.decode.decoder import Decoder
         from livefix.framing import Framer
@@ -96,6 +99,7 @@ class Pipeline:
         self._mono = 0.0
         self._wall = 0.0
         self.finished = False
+        _attach_pump(self, native)
 
     # -- feeding -------------------------------------------------------------------------
     def feed(self, item: Item) -> None:
@@ -194,6 +198,21 @@ class Pipeline:
                         sky=self.state.sky(), counters=counters,
                         analysis=self.analyzer.snapshot(counters), recording=recording,
                         recording_error=recording_error, finished=self.finished)
+
+
+def _attach_pump(p: Pipeline, native: bool | None) -> None:
+    """Rebind p._lines to the C pump (see Pipeline.__init__'s native); subclasses keep their own."""
+    from livefix.framing import built_core
+    from livefix.state.model import StateModel
+
+    kind = getattr(built_core(), "LinePump", None)
+    if native is None:
+        native = os.environ.get("LIVEFIX_PURE") != "1"
+    elif native and kind is None:
+        raise RuntimeError("the C core livefix._native (LinePump) is not built")
+    if native and kind is not None and type(p) is Pipeline:
+        helpers = (Pipeline, Pipeline._pump_events, StateModel.drain_events, Rejected_)
+        vars(p)["_lines"] = kind(p, helpers).lines  # an instance attribute over the method
 
 
 def run_items(items, config: AnalysisConfig | None = None, source: str = "") -> Pipeline:  # noqa: ANN001

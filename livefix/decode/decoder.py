@@ -7,6 +7,7 @@ digits, either case) so that a refused line gets the same reason whichever path 
 
 from __future__ import annotations
 
+import os
 from types import MappingProxyType
 from typing import Any
 
@@ -71,7 +72,7 @@ class Decoder:
     Not thread-safe: one decoder per pipeline.
     """
 
-    def __init__(self, line_cache: int = 1024, native: bool | None = None) -> None:
+    def __init__(self, line_cache: int = 1024, native: bool | None = None, front: bool | None = None) -> None:
         """line_cache: how many recent fast-path lines to remember (0 turns the cache off).
         native: use the C core (livefix/_native.c) for the common shape of a fast-type line; None
         follows livefix.framing.native_core() (built, and LIVEFIX_PURE is not "1"). The C core
@@ -80,6 +81,10 @@ class Decoder:
         Receivers repeat GSA and VTG sentences byte for byte for long stretches; a repeat then
         costs one dict lookup and returns the same Decoded object (its fields are shared, which is
         why Decoded.fields is read-only by contract), so later stages can memoise by identity.
+
+        front: decode() itself in C (livefix._native.DecoderFront over this instance's attributes,
+        the same results and state; only with the C core): None when it is built and LIVEFIX_PURE
+        is not "1"; True: it or RuntimeError (tests); False: the method below, the reference.
         """
         self._counters = DecodeCounters()
         self._pending: dict[str, int] = {}
@@ -95,6 +100,7 @@ class Decoder:
             raise RuntimeError("the C core livefix._native is not built")
         self._native = _CORE.decode if native and _CORE is not None else None
         self._make = _CORE.make if native and _CORE is not None else None
+        _attach_front(self, front)
 
     @property
     def counters(self) -> DecodeCounters:
@@ -275,6 +281,20 @@ class Decoder:
             except Exception:  # noqa: S110 - unknown variant: the raw payload is still delivered
                 pass
         return self._ok("P", text or "?", fields, proprietary=True)
+
+
+def _attach_front(dec: Decoder, front: bool | None) -> None:
+    """Rebind dec.decode to the C twin (see Decoder.__init__'s front); a subclass that overrides
+    decode keeps its own. The twin reads _native/_make per call and runs this module's decode for
+    any line or state it does not handle itself."""
+    kind = getattr(_CORE, "DecoderFront", None)
+    if front is None:
+        front = os.environ.get("LIVEFIX_PURE") != "1" and kind is not None and dec._native is not None
+    elif front and (kind is None or dec._native is None):
+        raise RuntimeError("the C twin of Decoder.decode needs the C core livefix._native (native=True)")
+    if front and type(dec).decode is Decoder.decode:
+        helpers = (Decoder.decode, _SLOTS, _WITH_GSV, _REPEATING, _MIN_HIT_SHARE, _CORE.decode, _CORE.make)
+        vars(dec)["decode"] = kind(dec, helpers).decode  # an instance attribute over the method
 
 
 def _guess_id(line: bytes) -> str:
