@@ -15,8 +15,8 @@ from collections.abc import Callable
 from fuzz_clock import clock_diff, load_clock_core, parts_diff
 from fuzz_dop import dop_diff, load_dop_core, used_diff
 from fuzz_epochcore import diff as epochcore_diff
-from fuzz_front import front_diff
 from fuzz_epochcore import load_epoch_core
+from fuzz_front import front_diff
 from fuzz_geo import diff as geo_diff
 from fuzz_jumps import diff as jumps_diff
 from fuzz_numbers import decimal_diff
