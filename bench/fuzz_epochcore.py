@@ -217,7 +217,7 @@ def load_epoch_core(path: str) -> ModuleType:
 
     import livefix.analysis
     from livefix import geodesy
-    from livefix.analysis import counts, geo, jumps, sky, trend
+    from livefix.analysis import counts, geo, jumps, position, sky, trend
 
     mod = load_ext("livefix.analysis._epochcore", path)
     livefix.analysis._epochcore = mod  # type: ignore[attr-defined]
@@ -227,7 +227,10 @@ def load_epoch_core(path: str) -> ModuleType:
                                  sky.MIN_TRACKED, sky.MAX_SEEN)
     geo._CORE = counts.load_core("configure_geo", geodesy.geodetic_to_ecef, geo._frame_at, geodesy.A, geodesy.E2)
     jumps._CORE = counts.load_core("configure_jumps", jumps._Centre, jumps.WARMUP, jumps._EW_A, math.hypot)
-    if not (counts._CORE is trend._CORE is sky._CORE is geo._CORE is jumps._CORE is mod):
+    types = position._CONFIGURE[0][:-1] + (getattr(geo._CORE, "Projector", None),)  # this build's projector
+    position._CONFIGURE = (types, *position._CONFIGURE[1:])
+    position._CORE = counts.load_core("configure_position", *position._CONFIGURE)
+    if not (counts._CORE is trend._CORE is sky._CORE is geo._CORE is jumps._CORE is position._CORE is mod):
         raise RuntimeError(f"{path}: not a usable build of livefix.analysis._epochcore")
     return mod
 

@@ -20,6 +20,7 @@ from fuzz_front import front_diff
 from fuzz_geo import diff as geo_diff
 from fuzz_jumps import diff as jumps_diff
 from fuzz_numbers import decimal_diff
+from fuzz_pos import diff as pos_diff
 from fuzz_sky import load_sky_core, sky_diff
 from fuzz_state import load_state_core, state_diff
 from fuzz_used import load_used_core
@@ -70,6 +71,7 @@ LATER = (
     ("epoch assembly", "calls", "livefix.state.model", "_statecore", _plain(state_diff), 0.1, 20_000),
     ("decimal numbers", "texts", "livefix.decode.decoder", "_native", _decimal, 5.0, 1_000_000),
     ("decoder front", "lines", "livefix.decode.decoder", "_native", _plain(front_diff), 0.5, 100_000),
+    ("position step", "epochs", "livefix.analysis.position", "_epochcore", _plain(pos_diff), 0.025, 5_000),
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
 )

@@ -158,6 +158,13 @@ static PyMethodDef methods[] = {
     {"configure_jumps", ep_configure_jumps, METH_VARARGS,
      "configure_jumps(centre_type, warmup, ew_a, hypot): the centre type and constants of livefix.analysis.jumps\n"
      "and math.hypot."},
+    {"configure_position", ep_configure_position, METH_VARARGS,
+     "configure_position((stats, timeline, epoch, motion, convergence, track, moments, projector), deque,\n"
+     "jumps_check, fix_names, none_fix, nan, hypot, head_cap, flush_at, track_batch, settle, confirm): the types\n"
+     "and constants of livefix.analysis.position and of the stages it calls."},
+    {"position_epoch", (PyCFunction)(void (*)(void))ep_position_epoch, METH_FASTCALL,
+     "position_epoch(stats, ep) -> bool\n\nPositionStats.on_epoch for the common case, in place; False (nothing\n"
+     "changed) when the Python code must run it."},
     {"counts", ep_counts, METH_O, counts_doc},
     {"jumps_settled", (PyCFunction)(void (*)(void))ep_jumps_settled, METH_FASTCALL,
      "jumps_settled(jumps, fix, e, n, u) -> bool\n\nJumps.check for a settled epoch, in place; False (nothing changed)\n"

@@ -57,6 +57,10 @@ EP_HIDDEN int ep_geo_add_types(PyObject *m); /* the types EcefMemo and Projector
 EP_HIDDEN PyObject *ep_configure_jumps(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_jumps_settled(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 
+/* the common case of PositionStats.on_epoch: _epochcore_pos.c (its configuration lives there too) */
+EP_HIDDEN PyObject *ep_configure_position(PyObject *mod, PyObject *args);
+EP_HIDDEN PyObject *ep_position_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
+
 /* ---- values ---- */
 
 /* An exact int in [-COUNT_MAX, COUNT_MAX]: 1 and its value, else 0. */

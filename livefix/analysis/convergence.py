@@ -26,6 +26,7 @@ from itertools import chain
 import numpy as np
 
 HEAD_CAP = 36000  # first epochs kept whole for convergence (1 h at 10 Hz)
+FLUSH_AT = 256  # head rows waiting before they are written in one slice
 Target = tuple[tuple[float, float, float], float | None, float | None]  # centre e/n/u, radius h, radius v
 
 
@@ -67,6 +68,8 @@ class Tracker:
 class Convergence:
     """Head buffer of (t, e, n, u, fixed) plus the streaming trackers past it."""
 
+    __slots__ = ("hold_s", "head", "n", "_pend", "_done", "trk_h", "trk_v", "first_fix", "frozen")  # read by C
+
     def __init__(self, hold_s: float) -> None:
         self.hold_s = hold_s
         self.head = np.full((HEAD_CAP, 5), np.nan)
@@ -87,7 +90,7 @@ class Convergence:
             self.n += 1
             if self.n == HEAD_CAP:
                 self._seed(target())
-            elif len(p) >= 256:
+            elif len(p) >= FLUSH_AT:
                 self._flush()
             return
         tg = self.frozen

@@ -20,6 +20,9 @@ Rule (thresholds in AnalysisConfig, values shown in the snapshot):
   figures at once, before the state changes; without a speed the first epochs of a move wait for
   the state (the jump filter keeps them out meanwhile). The moving share counts the epochs in
   the moving state.
+
+`update` has a C twin (livefix/analysis/_epochcore_motion.c), run by the C step of
+PositionStats.on_epoch; this code is the reference.
 """
 
 from __future__ import annotations
@@ -38,6 +41,10 @@ MIN_STATIC_S = 60.0  # static time below which (or below half the session) there
 
 class MotionDetector:
     """Snapshot key "motion": state static | moving | mixed, moving_share, segments, thresholds."""
+
+    __slots__ = ("cfg", "_w", "_hw", "_need", "_slow_mps", "_fast_mps", "_hold", "_full", "_half", "moving",
+                 "_still_since", "fixed", "moving_epochs", "static_s", "moving_s", "moves", "_prev", "max_speed",
+                 "_run", "_fast")  # read by the C step of livefix/analysis/_epochcore_pos.c
 
     def __init__(self, config: AnalysisConfig) -> None:
         self.cfg = config

@@ -29,20 +29,23 @@ MIN_SHARE of all fixed epochs; otherwise the fix type with the most epochs. `fix
 from __future__ import annotations
 
 import math
+from collections import deque
 from collections.abc import Callable
 from typing import Any
 
 import numpy as np
 
+from livefix.analysis import geo
 from livefix.analysis.config import AnalysisConfig
-from livefix.analysis.convergence import Convergence, Target
+from livefix.analysis.convergence import FLUSH_AT, HEAD_CAP, Convergence, Target
+from livefix.analysis.counts import load_core, pick_core
 from livefix.analysis.geo import EcefMemo, Projector
 from livefix.analysis.jumps import Jumps
-from livefix.analysis.motion import MotionDetector
+from livefix.analysis.motion import CONFIRM, MotionDetector
 from livefix.analysis.position_figures import drift_figures, empty_figures
 from livefix.analysis.streaming import Timeline, num, valid_fix
 from livefix.analysis.track import BATCH as TRACK_BATCH
-from livefix.analysis.track import E, N, Track, U
+from livefix.analysis.track import E, Moments3, N, Track, U
 from livefix.geodesy import LocalFrame
 from livefix.state.epoch import FIX_NAMES, Epoch, Event
 
@@ -55,10 +58,20 @@ NAN = float("nan")
 
 
 class PositionStats:
-    """Snapshot key "position" (and "motion" via `motion`); see livefix.analysis for the keys."""
+    """Snapshot key "position" (and "motion" via `motion`); see livefix.analysis for the keys.
+    The common case of on_epoch (a settled epoch of a receiver at rest) has a C twin,
+    livefix/analysis/_epochcore_pos.c, which hands every other case back to this code, the reference."""
+
+    __slots__ = ("cfg", "emit", "_ecef", "_valid", "_thr_h", "_thr_v", "_core", "clock", "motion", "_epochs",
+                 "segments", "_best", "_best_n", "_was_moving", "_user_ref", "_user_source", "anchor", "tracks", "ref",
+                 "ref_source", "ref_enu", "ref_frame", "_anchor_p", "_ref_p", "ref_fix", "conv", "jumps", "_last",
+                 "_site_en", "_fixed_now", "no_height", "h_datum", "other_datum", "_cache", "_auto")  # read by the C step
 
     def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
-                 ecef: EcefMemo | None = None, fixed: Callable[[Epoch], bool] = valid_fix) -> None:
+                 ecef: EcefMemo | None = None, fixed: Callable[[Epoch], bool] = valid_fix,
+                 native: bool | None = None) -> None:
+        """native: the common case of on_epoch in C (counts.pick_core: None as LIVEFIX_PURE says)."""
+        self._core = pick_core(_CORE, native)
         self.cfg = config
         self.emit = emit
         self._ecef = EcefMemo() if ecef is None else ecef  # shared with the other stages by the Analyzer
@@ -147,6 +160,9 @@ class PositionStats:
         return h
 
     def on_epoch(self, ep: Epoch) -> None:
+        core = self._core
+        if core is not None and core.position_epoch(self, ep):
+            return
         clock = self.clock  # the Analyzer shares the fix statistics' timeline (stepped there first)
         t = clock.t if ep is clock._ep else clock.step(ep)  # Timeline.follow, without the call
         self._epochs += 1
@@ -200,12 +216,16 @@ class PositionStats:
         if len(p) >= TRACK_BATCH:
             trk._settle()
         if self._auto and trk.n == SETTLE_EPOCHS and self._better(fix):
-            a = trk.ring.array()[:SETTLE_EPOCHS]
-            mu = a[:, U][np.isfinite(a[:, U])]
-            me, mn = float(np.median(a[:, E])), float(np.median(a[:, N]))
-            self._set_ref(*self.anchor.geodetic(me, mn, float(np.median(mu)) if mu.size else 0.0),
-                          source="session_median")
-            self.ref_fix = fix
+            self._session_ref(fix, trk)
+
+    def _session_ref(self, fix: str, trk: Track) -> None:
+        """The automatic reference: the median of the fix type's first SETTLE_EPOCHS settled epochs."""
+        a = trk.ring.array()[:SETTLE_EPOCHS]
+        mu = a[:, U][np.isfinite(a[:, U])]
+        me, mn = float(np.median(a[:, E])), float(np.median(a[:, N]))
+        self._set_ref(*self.anchor.geodetic(me, mn, float(np.median(mu)) if mu.size else 0.0),
+                      source="session_median")
+        self.ref_fix = fix
 
     def _new_site(self) -> None:
         """The receiver stopped at a new place: keep the longer segment's figures, start afresh."""
@@ -334,3 +354,11 @@ ESTIMATORS = {
     "convergence_centre": "user reference, else median of the headline fix type's recent settled epochs",
     "drift": "least-squares slope of 1-minute block means; 95 % interval for AR(1) residuals",
 }
+
+
+# the common case of on_epoch in C, configured with the types and constants it meets on that path
+_CONFIGURE = ((PositionStats, Timeline, Epoch, MotionDetector, Convergence, Track, Moments3,
+               getattr(geo._CORE, "Projector", None)),
+              deque, Jumps.check, FIX_NAMES, "none", NAN, math.hypot, HEAD_CAP, FLUSH_AT, TRACK_BATCH,
+              SETTLE_EPOCHS, CONFIRM)
+_CORE = load_core("configure_position", *_CONFIGURE)

@@ -91,6 +91,8 @@ class Track:
     accumulator per row is slow); each accumulator still takes them one by one in arrival order, so
     every sum is the same. Every reader (the members below are properties) settles them first."""
 
+    __slots__ = ("_mom", "_hist_r", "_hist_v", "_ring", "_blocks", "_allan", "_pend")  # _pend, _mom: read by C
+
     def __init__(self) -> None:
         self._mom = Moments3()
         self._hist_r = LogHistogram()
