@@ -92,8 +92,10 @@ C_CORES = {
         ["livefix/analysis/_epochcore.c", "livefix/analysis/_epochcore_counts.c",
          "livefix/analysis/_epochcore_trend.c", "livefix/analysis/_epochcore_sky.c",
          "livefix/analysis/_epochcore_geo.c", "livefix/analysis/_epochcore_jumps.c",
-         "livefix/analysis/_epochcore_pos.c", "livefix/analysis/_epochcore_motion.c"],
-        ["livefix/analysis/_epochcore.h", "livefix/analysis/_epochcore_pos.h", "livefix/_corekit.h"],
+         "livefix/analysis/_epochcore_pos.c", "livefix/analysis/_epochcore_motion.c",
+         "livefix/analysis/_epochcore_fix.c", "livefix/analysis/_epochcore_fixplan.c"],
+        ["livefix/analysis/_epochcore.h", "livefix/analysis/_epochcore_pos.h", "livefix/analysis/_epochcore_fix.h",
+         "livefix/_corekit.h"],
     ),
 }
 

@@ -217,7 +217,7 @@ def load_epoch_core(path: str) -> ModuleType:
 
     import livefix.analysis
     from livefix import geodesy
-    from livefix.analysis import counts, geo, jumps, position, sky, trend
+    from livefix.analysis import counts, fixes, geo, jumps, position, sky, trend
 
     mod = load_ext("livefix.analysis._epochcore", path)
     livefix.analysis._epochcore = mod  # type: ignore[attr-defined]
@@ -230,7 +230,10 @@ def load_epoch_core(path: str) -> ModuleType:
     types = position._CONFIGURE[0][:-1] + (getattr(geo._CORE, "Projector", None),)  # this build's projector
     position._CONFIGURE = (types, *position._CONFIGURE[1:])
     position._CORE = counts.load_core("configure_position", *position._CONFIGURE)
-    if not (counts._CORE is trend._CORE is sky._CORE is geo._CORE is jumps._CORE is position._CORE is mod):
+    fixes._CORE = fixes.fixes_native.load(fixes.FixStats, fixes._Recent, fixes._POSITION_SENTENCES, fixes.DT_N,
+                                          fixes.EW_MIN, fixes._EW_A)
+    if not (counts._CORE is trend._CORE is sky._CORE is geo._CORE is jumps._CORE is position._CORE is fixes._CORE
+            is mod):
         raise RuntimeError(f"{path}: not a usable build of livefix.analysis._epochcore")
     return mod
 

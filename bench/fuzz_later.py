@@ -16,6 +16,7 @@ from fuzz_clock import clock_diff, load_clock_core, parts_diff
 from fuzz_dop import dop_diff, load_dop_core, used_diff
 from fuzz_epochcore import diff as epochcore_diff
 from fuzz_epochcore import load_epoch_core
+from fuzz_fix import diff as fix_diff
 from fuzz_front import front_diff
 from fuzz_geo import diff as geo_diff
 from fuzz_jumps import diff as jumps_diff
@@ -71,6 +72,7 @@ LATER = (
     ("epoch assembly", "calls", "livefix.state.model", "_statecore", _plain(state_diff), 0.1, 20_000),
     ("decimal numbers", "texts", "livefix.decode.decoder", "_native", _decimal, 5.0, 1_000_000),
     ("decoder front", "lines", "livefix.decode.decoder", "_native", _plain(front_diff), 0.5, 100_000),
+    ("fix step", "items", "livefix.analysis.fixes", "_epochcore", _plain(fix_diff), 0.05, 10_000),
     ("position step", "epochs", "livefix.analysis.position", "_epochcore", _plain(pos_diff), 0.025, 5_000),
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),

@@ -165,6 +165,13 @@ static PyMethodDef methods[] = {
     {"position_epoch", (PyCFunction)(void (*)(void))ep_position_epoch, METH_FASTCALL,
      "position_epoch(stats, ep) -> bool\n\nPositionStats.on_epoch for the common case, in place; False (nothing\n"
      "changed) when the Python code must run it."},
+    {"configure_fix", ep_configure_fix, METH_VARARGS,
+     "configure_fix(stats_type, epoch_type, timeline_type, book_type, recent_type, deque_type, config_type,\n"
+     "fix_names, none, position_sentences, not_fix_state, hypot, back_s, gap_factor, dt_n, ew_min, ew_a):\n"
+     "the types and constants of livefix.analysis.fixes."},
+    {"fix_step", (PyCFunction)(void (*)(void))ep_fix_step, METH_FASTCALL,
+     "fix_step(stats, ep) -> bool\n\nFixStats.on_epoch for an epoch of a running session, in place; False (nothing\n"
+     "changed) when the Python code must do it."},
     {"counts", ep_counts, METH_O, counts_doc},
     {"jumps_settled", (PyCFunction)(void (*)(void))ep_jumps_settled, METH_FASTCALL,
      "jumps_settled(jumps, fix, e, n, u) -> bool\n\nJumps.check for a settled epoch, in place; False (nothing changed)\n"

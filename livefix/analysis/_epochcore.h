@@ -61,6 +61,11 @@ EP_HIDDEN PyObject *ep_jumps_settled(PyObject *mod, PyObject *const *a, Py_ssize
 EP_HIDDEN PyObject *ep_configure_position(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_position_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 
+/* the running-session case of FixStats.on_epoch: _epochcore_fix.c (its configuration lives there too) and
+ * _epochcore_fixplan.c, with their private header _epochcore_fix.h */
+EP_HIDDEN PyObject *ep_configure_fix(PyObject *mod, PyObject *args);
+EP_HIDDEN PyObject *ep_fix_step(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
+
 /* ---- values ---- */
 
 /* An exact int in [-COUNT_MAX, COUNT_MAX]: 1 and its value, else 0. */

@@ -11,6 +11,7 @@ GAP_FACTOR nominal intervals) after a fix count as no fix from one interval afte
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from typing import Any
 
 from livefix.analysis.streaming import num
@@ -92,3 +93,8 @@ class TimeBook:
         return {"observed_s": num(sum(totals.values()), 3), "known_s": num(known, 3),
                 "data_gap_s": num(totals.get(GAP, 0.0), 3), "unknown_s": num(totals.get(UNKNOWN, 0.0), 3),
                 "restart_s": num(totals.get(RESTART, 0.0), 3)}
+
+
+def share_where(shares: dict[str, float], wanted: Callable[[str], bool]) -> float | None:
+    """The summed share of the buckets `wanted` picks (rounded as reported), None without shares."""
+    return num(sum(v for k, v in shares.items() if wanted(k)), 5) if shares else None

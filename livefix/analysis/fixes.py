@@ -35,9 +35,11 @@ from collections import deque
 from collections.abc import Callable
 from typing import Any
 
+from livefix.analysis import fixes_native
 from livefix.analysis import starts as start_rec
-from livefix.analysis.availability import DATA_GAP_MIN, RESTART, UNKNOWN, TimeBook
+from livefix.analysis.availability import DATA_GAP_MIN, RESTART, UNKNOWN, TimeBook, share_where
 from livefix.analysis.config import AnalysisConfig
+from livefix.analysis.counts import pick_core
 from livefix.analysis.geo import EcefMemo, Projector
 from livefix.analysis.streaming import Timeline, num, valid_fix
 from livefix.geodesy import LocalFrame
@@ -83,7 +85,11 @@ class FixStats:
     """Snapshot key "fix"; see livefix.analysis for the keys."""
 
     def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
-                 ecef: EcefMemo | None = None, fixed: Callable[[Epoch], bool] = valid_fix) -> None:
+                 ecef: EcefMemo | None = None, fixed: Callable[[Epoch], bool] = valid_fix,
+                 native: bool | None = None) -> None:
+        """native: a running session's epochs in C (counts.pick_core: None as LIVEFIX_PURE says)."""
+        core = pick_core(_CORE, native)
+        self._fast = None if core is None else core.fix_step
         self.cfg = config
         self.emit = emit
         self._ecef = EcefMemo() if ecef is None else ecef  # shared with the other stages by the Analyzer
@@ -194,6 +200,8 @@ class FixStats:
             self.note_data_gap(ev.mono)
 
     def on_epoch(self, ep: Epoch) -> None:
+        if self._fast is not None and self._fast(self, ep):
+            return  # a running session's epoch, done by the C twin (it hands back every other case)
         clock = self.clock
         t = clock.step(ep)
         # labels on the receiver's clock: an epoch without a time (no fix, empty time fields) is
@@ -381,9 +389,9 @@ class FixStats:
             "starts_total": self.starts_total, "restarts": dict(self.restarts),
             "availability": self.book.shares(totals),
             "availability_basis": self.book.basis(totals),
-            "fix_share_after_first_fix": _share(self.book.shares(totals, "fix"), lambda k: k != "none")
+            "fix_share_after_first_fix": share_where(self.book.shares(totals, "fix"), lambda k: k != "none")
             if self.book.has_mark("fix") else None,
-            "rtk_fixed_share_after_first": _share(self.book.shares(totals, "rtk_fixed"), lambda k: k == "rtk_fixed")
+            "rtk_fixed_share_after_first": share_where(self.book.shares(totals, "rtk_fixed"), lambda k: k == "rtk_fixed")
             if self.book.has_mark("rtk_fixed") else None,
             "epochs": self.epochs, "epochs_by_fix": {k: v for k, v in self.counts.items() if v},
             "no_position_epochs": self.no_position,
@@ -396,5 +404,4 @@ class FixStats:
         }
 
 
-def _share(shares: dict[str, float], wanted: Callable[[str], bool]) -> float | None:
-    return num(sum(v for k, v in shares.items() if wanted(k)), 5) if shares else None
+_CORE = fixes_native.load(FixStats, _Recent, _POSITION_SENTENCES, DT_N, EW_MIN, _EW_A)
