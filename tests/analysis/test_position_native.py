@@ -158,14 +158,14 @@ def test_a_replaced_jump_check_is_called() -> None:
 @pytest.mark.filterwarnings("ignore::RuntimeWarning")
 @pytest.mark.parametrize(("seed", "odd"), [(1, 0.0), (2, 0.02), (3, 0.2)])
 def test_random_streams(seed: int, odd: float) -> None:
-    n, bad, examples = FUZZ.diff(6000, seed, odd)
+    n, bad, examples = FUZZ.diff(2000, seed, odd)
     assert bad == 0, examples
     rng = random.Random(seed)
     gen = FUZZ.epochs(rng, odd)
     pair = FUZZ.Pair(FUZZ.config(rng))
-    for i in range(4000):
+    for i in range(2500):
         assert pair.step(next(gen), snapshot=i % 400 == 0) is None, i
-    assert pair.core.done > 500 and pair.core.handed > 100  # the C step ran, and the rest was left to Python
+    assert pair.core.done > 300 and pair.core.handed > 100  # the C step ran, and the rest was left to Python
     assert (pair.errors > 0) == (odd > 0)
     assert pair.c.motion.moves > 0 and pair.c.segments > 1  # moves and stops at new places
 
