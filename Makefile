@@ -21,9 +21,10 @@ demo: $(STAMP)
 test: $(STAMP)
 	$(PY) -m ruff check livefix tests bench
 	# the whole suite on both paths: with the C core, then the pure-Python reference (LIVEFIX_PURE=1);
-	# two workers each, so both runs fit the CI budget (about 4.5 min each on 2 cores)
+	# the twins' differentials (marker "twin") compare both paths themselves, so they run once, in the
+	# first pass (tests/conftest.py); two workers each, so both runs fit the CI budget on 2 cores
 	$(PY) -m pytest -n 2
-	LIVEFIX_PURE=1 $(PY) -m pytest -n 2
+	LIVEFIX_PURE=1 $(PY) -m pytest -n 2 -m "not twin"
 
 lint: $(STAMP)
 	$(PY) -m ruff check livefix tests bench
