@@ -38,14 +38,12 @@ TWIN_LOADERS = {
 }
 
 
-def _dop(n: int, seed: int) -> tuple[int, int, list[str], str]:
-    k, handed, b, examples = dop_diff(n, seed)
-    return k, b, examples, f"{k:,} ({handed:,} handed back)"
-
-
-def _dop_used(n: int, seed: int) -> tuple[int, int, list[str], str]:
-    k, handed, b, examples = used_diff(n, seed)
-    return k, b, examples, f"{k:,} ({handed:,} handed back)"
+def _handed(diff: Callable[[int, int], tuple[int, int, int, list[str]]]) -> Callable[[int, int], tuple]:
+    """A differential that also counts the cases the C code handed back to the Python."""
+    def run(n: int, seed: int) -> tuple[int, int, list[str], str]:
+        k, handed, b, examples = diff(n, seed)
+        return k, b, examples, f"{k:,} ({handed:,} handed back)"
+    return run
 
 
 def _decimal(n: int, seed: int) -> tuple[int, int, list[str], str]:
@@ -62,8 +60,8 @@ def _plain(diff: Callable[[int, int], tuple[int, int, list[str]]]) -> Callable[[
 
 # (twin, unit, module whose _CORE says the twin is built, its extension, differential, share of n, need)
 LATER = (
-    ("DOP solve", "geometries", "livefix.analysis.dopsolve", "_dopcore", _dop, 1.0, 200_000),
-    ("DOP used pass", "epochs", "livefix.analysis.dopsolve", "_dopcore", _dop_used, 0.25, 50_000),
+    ("DOP solve", "geometries", "livefix.analysis.dopsolve", "_dopcore", _handed(dop_diff), 1.0, 200_000),
+    ("DOP used pass", "epochs", "livefix.analysis.dopsolve", "_dopcore", _handed(used_diff), 0.25, 50_000),
     ("GSA used tracker", "calls", "livefix.state.used", "_usedcore", _plain(tracker_diff), 0.1, 20_000),
     ("per-epoch passes", "epochs", "livefix.analysis.counts", "_epochcore", _plain(epochcore_diff), 0.5, 100_000),
     ("projection memo", "calls", "livefix.analysis.geo", "_epochcore", _plain(geo_diff), 1.0, 200_000),
