@@ -13,6 +13,8 @@ $(STAMP): pyproject.toml setup.py $(C_SRC)  # C cores rebuilt in place when a so
 	test -x $(PY) || $(PYTHON) -m venv $(VENV)
 	$(PY) -m pip install -q --upgrade pip
 	$(PY) -m pip install -q -e '.[test]'
+	# bytecode now, as an installed package has it (hosts with PYTHONDONTWRITEBYTECODE=1 never write it)
+	$(PY) -m compileall -q livefix > /dev/null
 	touch $(STAMP)
 
 demo: $(STAMP)

@@ -21,7 +21,7 @@ import time
 from pathlib import Path
 
 sys.path.insert(0, str(Path(__file__).resolve().parent))
-from bench_replay import machine, sim_epochs  # noqa: E402
+from bench_replay import as_installed, machine, sim_epochs  # noqa: E402
 
 TARGET_S = 120.0  # issue 6: the day in two minutes
 NATIVE_TARGET_S = 15.0  # issue 17: the day in 15 s with --jobs 2 and the C core
@@ -172,6 +172,7 @@ def main(argv: list[str] | None = None) -> int:
                     help="C core and/or the pure path (LIVEFIX_PURE=1), default both")
     a = ap.parse_args(argv)
     print(f"machine: {machine()}")
+    print(as_installed())
     d = Path(a.dir)
     d.mkdir(parents=True, exist_ok=True)
     path = d / f"day-{a.hours:g}h-{a.rate}hz.lfr"

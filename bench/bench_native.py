@@ -25,7 +25,7 @@ from typing import Any
 sys.path.insert(0, str(Path(__file__).resolve().parent))
 sys.path.insert(0, str(Path(__file__).resolve().parents[1]))
 
-from bench_replay import ROOT, file_lines, machine, time_reference, write_recording  # noqa: E402
+from bench_replay import ROOT, as_installed, file_lines, machine, time_reference, write_recording  # noqa: E402
 
 TARGET = 25.0  # issue 17: whole replay >= 25x pynmeagps parse alone (aim 80x)
 DAY_TARGET_S = 15.0  # issue 17: 24 h at 10 Hz in under 15 s with --jobs 2
@@ -102,6 +102,7 @@ def main(argv: list[str] | None = None) -> int:
         print("RESULT | C core | not built | built | NOT met")
         return 0
     print(f"machine: {machine()}")
+    print(as_installed())
     with tempfile.TemporaryDirectory() as tmp:
         path = Path(tmp) / f"bench-native-{a.rate}hz-{a.minutes:g}min.lfr"
         nlines, nbytes = write_recording(path, rate=a.rate, seconds=a.minutes * 60)

@@ -42,3 +42,12 @@ def test_every_user_agrees_with_the_reference(body: str) -> None:
 ])
 def test_refused_lines(line: bytes) -> None:
     assert not sentence_ok(line)
+
+
+def test_xor16_table_is_the_xor_of_both_bytes() -> None:
+    # XOR16 is built by doubling and bytes.translate (start-up); its definition, entry by entry:
+    # the XOR of the two bytes of a 16-bit value (NMEA 0183's checksum is a bytewise XOR)
+    from livefix.checksum import XOR16
+
+    assert len(XOR16) == 65536
+    assert all(XOR16[i] == (i >> 8) ^ (i & 255) for i in range(65536))

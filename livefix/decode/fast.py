@@ -133,11 +133,18 @@ DEFS: dict[str, tuple[tuple[str, Conv], ...]] = {
             ("diffStation", _IN), ("navStatus", _CH)),
 }
 _MAX_BLOCKS = 99  # pynmeagps names beyond _99 get three digits; such lines go to the fallback
-GSV_NAMES = tuple(
-    ("numMsg", "msgNum", "numSV")
-    + tuple(f"{a}_{i:02d}" for i in range(1, k + 1) for a in ("svid", "elv", "az", "cno"))
-    for k in range(_MAX_BLOCKS + 1)
-)
+
+
+def _gsv_names() -> tuple[tuple[str, ...], ...]:
+    """GSV_NAMES[k]: the field names of a GSV line with k satellite blocks. Each is the one before
+    plus one block, so start-up formats 396 names, not the 19,800 of all the tuples."""
+    out = [("numMsg", "msgNum", "numSV")]
+    for i in range(1, _MAX_BLOCKS + 1):
+        out.append(out[-1] + tuple(f"{a}_{i:02d}" for a in ("svid", "elv", "az", "cno")))
+    return tuple(out)
+
+
+GSV_NAMES = _gsv_names()
 _getitem = dict.__getitem__
 _DECIMAL_CN0 = re.compile(r"[0-9]{1,2}\.[0-9]{1,3}")  # dd.d: within the field's 00-99 dB-Hz
 
