@@ -1,6 +1,6 @@
 """Build of the optional C cores (livefix._native, livefix.state._gsvcore, livefix.state._usedcore,
 livefix.state._skycore, livefix.state._statecore, livefix.state._clockcore, livefix.analysis._sigcore,
-livefix.analysis._dopcore, livefix.analysis._epochcore: C_CORES);
+livefix.analysis._dopcore, livefix.analysis._epochcore, livefix.record._reccore: C_CORES);
 everything else is declared in pyproject.toml.
 
 Each extension is optional: when it cannot be compiled (no C compiler, no Python headers) the install
@@ -97,6 +97,9 @@ C_CORES = {
         ["livefix/analysis/_epochcore.h", "livefix/analysis/_epochcore_pos.h", "livefix/analysis/_epochcore_fix.h",
          "livefix/_corekit.h"],
     ),
+    # the record scan of a replay: heads, CRC, items (livefix/record/reader.py keeps the reference)
+    "livefix.record._reccore": (["livefix/record/_reccore.c", "livefix/record/_reccore_crc.c"],
+                                ["livefix/record/_reccore.h"]),
 }
 
 setup(

@@ -61,7 +61,7 @@ def stages(path: Path, native: bool) -> dict[str, float]:
 
     clock = time.thread_time
     t0 = clock()
-    items = list(RecordingReader(path).items())
+    items = list(RecordingReader(path, native=native).items())
     read = clock() - t0
     chunks = [it.data for it in items if type(it) is Chunk]
     fr, dec = Framer(native=native), Decoder(native=native)

@@ -22,6 +22,8 @@ from fuzz_geo import diff as geo_diff
 from fuzz_jumps import diff as jumps_diff
 from fuzz_numbers import decimal_diff
 from fuzz_pos import diff as pos_diff
+from fuzz_reader import diff as reader_diff
+from fuzz_reader import load_rec_core
 from fuzz_sky import load_sky_core, sky_diff
 from fuzz_state import load_state_core, state_diff
 from fuzz_used import load_used_core
@@ -35,6 +37,7 @@ TWIN_LOADERS = {
     "livefix.state._skycore": load_sky_core,
     "livefix.state._statecore": load_state_core,
     "livefix.state._clockcore": load_clock_core,
+    "livefix.record._reccore": load_rec_core,
 }
 
 
@@ -74,6 +77,7 @@ LATER = (
     ("position step", "epochs", "livefix.analysis.position", "_epochcore", _plain(pos_diff), 0.025, 5_000),
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
+    ("record scan", "recordings", "livefix.record.reader", "_reccore", _handed(reader_diff), 0.05, 10_000),
 )
 
 

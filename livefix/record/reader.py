@@ -9,14 +9,17 @@ import io
 import json
 import os
 import zlib
-from collections.abc import Iterator
+from collections.abc import Generator, Iterator
 from pathlib import Path
+from types import ModuleType
 
-from livefix.items import Item
+from livefix.corepick import built_core, pick_core
+from livefix.items import Chunk, Item
 from livefix.record import fmt
 from livefix.record.plainlog import iter_plain
 
 READ_BLOCK = 65536
+SCAN_BLOCK = 262144  # the C scan's read size: ~40 epoch records of a 10 Hz receiver per call
 MAX_PAYLOAD = 64 << 20  # a larger length field is damage, not data
 
 
@@ -103,8 +106,11 @@ def is_recording(path: str | os.PathLike) -> bool:
 
 
 class RecordingReader:
-    def __init__(self, path: str | os.PathLike) -> None:
-        """Opens the first file and reads its header; raises OSError if it cannot be read."""
+    def __init__(self, path: str | os.PathLike, native: bool | None = None) -> None:
+        """Opens the first file and reads its header; raises OSError if it cannot be read.
+        native: records scanned in C (livefix.record._reccore; None: when built and LIVEFIX_PURE is
+        not "1"; True: it or RuntimeError; False: _part, the reference)."""
+        self._core = pick_core(_CORE, native, _MISSING)
         self.first = resolve_parts(path)
         if self.first.is_dir():
             raise IsADirectoryError(f"{self.first} is a directory, not a recording")
@@ -143,9 +149,10 @@ class RecordingReader:
             return
         if self.damage:
             return
+        part = self._part if self._core is None else self._part_scan
         p: Path | None = self.first
         while p is not None:
-            ok = yield from self._part(p)
+            ok = yield from part(p)
             if not ok:
                 return
             p = _next_part(p)
@@ -190,6 +197,40 @@ class RecordingReader:
                 if item is not None:
                     yield item
 
+    def _part_scan(self, path: Path) -> Generator[Item, None, bool]:
+        """_part with the records scanned in C a block at a time (the same items, counts and damage
+        text). Where the scan is not sure (damage, an unusual head, a gzip stream cut short) the
+        reference reads this part again from its start and goes on after the items already given,
+        so every message is the reference's own."""
+        core = self._core
+        assert core is not None
+        records0, given = self.records, 0
+        f, gz = _open_stream(path)
+        with f:
+            head = f.readline(fmt.MAX_HEADER_LINE)
+            if head.startswith(fmt.MAGIC) and head.endswith(b"\n"):
+                self.clean = False
+                scan, decode, more = core.scan, fmt.decode, core.SCAN_MORE
+                buf, pos, need = b"", 0, 0
+                while True:
+                    block = f.read(max(SCAN_BLOCK, need - (len(buf) - pos)))
+                    if not block:
+                        if pos == len(buf) and not (gz is not None and gz.corrupt):
+                            return True  # as the reference: the file ends after a whole record
+                        break
+                    buf = buf[pos:] + block if pos < len(buf) else block
+                    items, pos, n, status, need = scan(buf, 0, _CHUNK_SLOTS, decode)
+                    self.records += n
+                    given += len(items)
+                    yield from items
+                    if status == core.SCAN_END:
+                        self.clean = True
+                        return True
+                    if status != more:
+                        break
+        self.records = records0
+        return (yield from _after(self._part(path), given))
+
     def _stop(self, path: Path, offset: int, where: str, why: str, gz: _GunzipRaw | None = None) -> bool:
         if gz is not None and gz.corrupt and gz.corrupt not in why:
             why += f" ({gz.corrupt})"
@@ -210,3 +251,25 @@ def _parse_head(line: bytes) -> tuple[str, float, float, int, int] | None:
     except (ValueError, UnicodeDecodeError):
         return None
     return out if 0 <= out[3] <= MAX_PAYLOAD else None
+
+
+def _after(gen: Generator[Item, None, bool], given: int) -> Generator[Item, None, bool]:
+    """gen's items after its first `given` (delivered already), and its return value."""
+    for _ in range(given):
+        try:
+            next(gen)
+        except StopIteration as stop:
+            return stop.value
+    return (yield from gen)
+
+
+_CHUNK_SLOTS = (Chunk.mono, Chunk.wall, Chunk.data)  # the C scan makes Chunks slot by slot, as make()
+_MISSING = "the C core livefix.record._reccore is not built"
+
+
+def _built_core() -> ModuleType | None:
+    return built_core("livefix.record._reccore", ("MAX_RECORD_LINE", "MAX_PAYLOAD"),
+                      (fmt.MAX_RECORD_LINE, MAX_PAYLOAD))
+
+
+_CORE = _built_core()

@@ -125,12 +125,16 @@ class FileSource:
         ff_until: float | None = None  # fast-forward to this stream mono
         last: Item | None = None
 
-        def halt() -> bool:
-            return stop.is_set() or self._closed.is_set()
+        stopped, closed = stop.is_set, self._closed.is_set  # bound once: checked before every item
 
-        while not halt():
-            with self._lock:
-                target, self._seek = self._seek, None
+        def halt() -> bool:
+            return stopped() or closed()
+
+        while not (stopped() or closed()):
+            target = None
+            if self._seek is not None:  # unlocked look first (one attribute read); the swap takes the lock
+                with self._lock:
+                    target, self._seek = self._seek, None
             if target is not None and first is not None:
                 if first.mono + target < (last.mono if last else first.mono):
                     self.generation += 1
