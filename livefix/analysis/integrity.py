@@ -12,6 +12,10 @@ bench long before its positions look wrong. All times come from the stream items
   passed to `on_gap` so the fix statistics keep it out of availability and outages.
 - Checksum burst: >= 5 bad checksums within 10 s (common practice) -> one "checksum_burst" event
   per burst (re-armed after 10 s without bad checksums).
+
+The running-session case of `on_epoch` (no hole to place, no gap) has a C twin,
+livefix/analysis/_epochcore_site.c, bound as the instance's on_epoch when built (the class's on_epoch
+stays the reference and runs every case the C step hands back).
 """
 
 from __future__ import annotations
@@ -23,6 +27,7 @@ from collections.abc import Callable
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
+from livefix.analysis.counts import load_core, pick_core
 from livefix.state.epoch import Epoch, Event
 from livefix.timefmt import iso
 
@@ -44,7 +49,12 @@ def _median(xs: list[float]) -> float:
 
 class StreamIntegrity:
     def __init__(self, config: AnalysisConfig, emit: Callable[[Event], None],
-                 on_gap: Callable[[float], None] | None = None) -> None:
+                 on_gap: Callable[[float], None] | None = None, native: bool | None = None) -> None:
+        """native: the running-session case of on_epoch in C (counts.pick_core: None as LIVEFIX_PURE says)."""
+        core = pick_core(_CORE, native)
+        if core is not None and type(self) is StreamIntegrity:  # a subclass keeps its own on_epoch
+            bound = core.bind_step("integrity", self, StreamIntegrity.on_epoch)  # the C step, else the reference
+            self.on_epoch = bound  # type: ignore[method-assign]
         self.config = config
         self.emit = emit
         self.on_gap = on_gap  # told of every stall (livefix.analysis.fixes: a data gap)
@@ -250,3 +260,6 @@ class StreamIntegrity:
         out["sentences_per_s"] = {k: round(v / dur, 3) for k, v in by_type.items()} if dur > 0 else {}
         out["bytes_per_s"] = round(self.bytes / dur, 1) if dur > 0 else None
         return out
+
+
+_CORE = load_core("configure_integrity", StreamIntegrity, Epoch, deque, WINDOW, GAP_FACTOR)  # on_epoch in C

@@ -10,6 +10,10 @@ never changes), and otherwise within one bin width of the lower middle value (nu
 with method "inverted_cdf"): for an even count whose two middle values sit in different bins that is
 not numpy.median's midpoint (1, 2, 3, 4 gives 2, not 2.5), which matters only for sparse data. The
 width in use is published.
+
+`MedianPosition.on_epoch`, with the batch settle when no coarsening is due, has a C twin,
+livefix/analysis/_epochcore_median.c, bound as the instance's on_epoch when built (the class's on_epoch
+stays the reference and runs every case the C step hands back).
 """
 
 from __future__ import annotations
@@ -18,6 +22,7 @@ import math
 from collections.abc import Callable, Iterable
 from typing import Any
 
+from livefix.analysis.counts import load_core, pick_core
 from livefix.analysis.streaming import valid_fix
 from livefix.state.epoch import FIX_NAMES, Epoch
 
@@ -170,7 +175,12 @@ class _FixMedians:
 class MedianPosition:
     """Component-wise median latitude, longitude and heights of the fixed epochs, per fix type."""
 
-    def __init__(self, fixed: Callable[[Epoch], bool] = valid_fix) -> None:
+    def __init__(self, fixed: Callable[[Epoch], bool] = valid_fix, native: bool | None = None) -> None:
+        """native: on_epoch in C (counts.pick_core: None as LIVEFIX_PURE says)."""
+        core = pick_core(_CORE, native)
+        if core is not None and type(self) is MedianPosition:  # a subclass keeps its own on_epoch
+            bound = core.bind_step("median", self, MedianPosition.on_epoch)  # the C step, else the reference
+            self.on_epoch = bound  # type: ignore[method-assign]
         self._valid = fixed  # valid_fix, or the Analyzer's fix_memo shared with the other stages
         self.reset()
 
@@ -192,3 +202,7 @@ class MedianPosition:
     def snapshot(self) -> dict[str, Any]:
         return {"by_fix": {k: self.by_fix[k].snapshot() for k in sorted(self.by_fix)},
                 "estimator": "component-wise median of the fixed epochs of each fix type"}
+
+
+_CORE = load_core("configure_median", MedianPosition, _FixMedians, BinnedMedian, Epoch, FIX_NAMES, "none", BATCH,
+                  MAX_BINS)  # on_epoch and the batch settle in C

@@ -5,12 +5,17 @@ after the run, so the processing time says nothing; the first and last epochs' r
 with the host stamps beside them (a receiver without a valid date, or a host clock that was
 wrong, shows as a difference). The datum comes from DTM (NMEA 0183): most receivers never send it,
 and the record must then say so rather than assume WGS 84.
+
+`on_epoch` after the first timed epoch has a C twin, livefix/analysis/_epochcore_site.c, bound as the
+instance's on_epoch when built (the class's on_epoch stays the reference and runs every case the C
+step hands back).
 """
 
 from __future__ import annotations
 
 from typing import Any
 
+from livefix.analysis.counts import load_core, pick_core
 from livefix.state.epoch import Epoch
 from livefix.timefmt import iso
 
@@ -18,7 +23,12 @@ MAX_DATUMS = 8  # distinct datum pairs listed (a receiver switching datums is ra
 
 
 class SessionSpan:
-    def __init__(self) -> None:
+    def __init__(self, native: bool | None = None) -> None:
+        """native: on_epoch in C (counts.pick_core: None as LIVEFIX_PURE says)."""
+        core = pick_core(_CORE, native)
+        if core is not None and type(self) is SessionSpan:  # a subclass keeps its own on_epoch
+            bound = core.bind_step("span", self, SessionSpan.on_epoch)  # the C step, else the reference
+            self.on_epoch = bound  # type: ignore[method-assign]
         self.reset()
 
     def reset(self) -> None:
@@ -72,3 +82,6 @@ class SessionSpan:
                 "epochs": self.datum_epochs,
                 "seen": [{"local": k[0], "reference": k[1], "epochs": n} for k, n in sorted(self.datums.items())]},
         }
+
+
+_CORE = load_core("configure_span", SessionSpan, Epoch, MAX_DATUMS)  # on_epoch in C
