@@ -58,9 +58,10 @@ C_CORES = {
          "livefix/state/_gsvcore_store.c", "livefix/state/_gsvcore_parts.c"],
         ["livefix/state/_gsvcore.h", "livefix/_corekit.h"],
     ),
-    # SignalStats' satellite loops (livefix/analysis/signal.py keeps the reference, picks this one when built)
+    # SignalStats' satellite loops and its on_epoch step (livefix/analysis/signal.py keeps the reference)
     "livefix.analysis._sigcore": (
-        ["livefix/analysis/_sigcore.c", "livefix/analysis/_sigcore_loops.c"],
+        ["livefix/analysis/_sigcore.c", "livefix/analysis/_sigcore_loops.c", "livefix/analysis/_sigcore_step.c",
+         "livefix/analysis/_sigcore_interf.c"],
         ["livefix/analysis/_sigcore.h", "livefix/_corekit.h"],
     ),
     # GSA used-set tracking (livefix/state/used.py keeps the reference and picks this one when built)

@@ -24,6 +24,7 @@ from fuzz_numbers import decimal_diff
 from fuzz_pos import diff as pos_diff
 from fuzz_reader import diff as reader_diff
 from fuzz_reader import load_rec_core
+from fuzz_signal import diff as signal_step_diff
 from fuzz_site import diff as site_diff
 from fuzz_sky import load_sky_core, sky_diff
 from fuzz_state import load_state_core, state_diff
@@ -80,6 +81,7 @@ LATER = (
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
     ("record scan", "recordings", "livefix.record.reader", "_reccore", _handed(reader_diff), 0.05, 10_000),
+    ("SignalStats step", "epochs", "livefix.analysis.signal", "_sigcore", _handed(signal_step_diff), 0.5, 5_000),
 )
 
 

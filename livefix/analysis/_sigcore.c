@@ -17,14 +17,24 @@
  * Tables and constants (sin of whole degrees, band and sector-row tables, time constants) are
  * handed over once by configure(), so they can never drift from the Python module.
  *
- * The module's files: this one (the module and configure()), _sigcore_loops.c (the two loops) and
- * their private header _sigcore.h (the value checks the loops share).
+ * step() is SignalStats.on_epoch in C (_sigcore_step.c, _sigcore_interf.c): the same attribute reads
+ * and stores, calling the Python methods (_accumulate, _accumulate_sats, _interference) for the parts
+ * it does not take, and handing the whole epoch back (False, nothing changed) on odd epochs.
+ *
+ * The module's files: this one (the module and configure()), _sigcore_loops.c (the two loops),
+ * _sigcore_step.c and _sigcore_interf.c (step()) and their private header _sigcore.h.
  */
 #include "_sigcore.h"
 
-#define API 1
+#define API 2
 
 static const char *FIELD_NAMES[F_COUNT] = {"system", "prn", "signal", "elev", "azim", "cn0"};
+static const char *EPOCH_FIELDS[E_COUNT] = {"mono", "sats"};
+static const char *NAMES[N_COUNT] = {
+    "_last_sats", "cur", "_cur_sum", "cur_mean", "cur_top4", "_if_t", "n", "sum", "top4_sum", "top4_n", "cs", "by_sys",
+    "bands", "cells", "config", "elev_mask_deg", "interference_drop_db", "base", "active", "_accumulate",
+    "_accumulate_sats", "_interference",
+};
 
 int sig_configured;
 PyTypeObject *sig_sat_type;
@@ -33,6 +43,11 @@ double sig_sin_tab[91];
 Py_ssize_t sig_band_tab[91], sig_cell_el_tab[91];
 long long sig_sector_az, sig_base_min_n;
 double sig_base_tau_s, sig_lost_s, sig_lost_cn0;
+PyTypeObject *sig_epoch_type;
+Py_ssize_t sig_epoch_off[E_COUNT];
+double sig_eval_s, sig_share, sig_forget_s;
+long long sig_min_measured;
+PyObject *sig_name[N_COUNT];
 
 /* ---- configure ---- */
 
@@ -67,18 +82,20 @@ static int table(PyObject *seq, double *d, Py_ssize_t *z)
 static PyObject *configure(PyObject *mod, PyObject *args)
 {
     (void)mod;
-    PyObject *type, *sin_l, *band_l, *cell_l;
-    long long az, min_n;
-    double tau, lost, lost_c;
-    if (!PyArg_ParseTuple(args, "O!O!O!O!LLddd", &PyType_Type, &type, &PyList_Type, &sin_l, &PyList_Type, &band_l,
-                          &PyList_Type, &cell_l, &az, &min_n, &tau, &lost, &lost_c))
+    PyObject *type, *sin_l, *band_l, *cell_l, *etype;
+    long long az, min_n, min_meas;
+    double tau, lost, lost_c, eval_s, share, forget;
+    if (!PyArg_ParseTuple(args, "O!O!O!O!LLdddO!ddLd", &PyType_Type, &type, &PyList_Type, &sin_l, &PyList_Type,
+                          &band_l, &PyList_Type, &cell_l, &az, &min_n, &tau, &lost, &lost_c, &PyType_Type, &etype,
+                          &eval_s, &share, &min_meas, &forget))
         return NULL;
     if (az <= 0) {
         PyErr_SetString(PyExc_ValueError, "sector width must be positive");
         return NULL;
     }
-    Py_ssize_t off[F_COUNT];
-    if (kit_slot_offsets(type, FIELD_NAMES, F_COUNT, off, "%s is not a slot of the satellite type") < 0)
+    Py_ssize_t off[F_COUNT], eoff[E_COUNT];
+    if (kit_slot_offsets(type, FIELD_NAMES, F_COUNT, off, "%s is not a slot of the satellite type") < 0
+        || kit_slot_offsets(etype, EPOCH_FIELDS, E_COUNT, eoff, "%s is not a slot of the epoch type") < 0)
         return NULL;
     double s[91];
     Py_ssize_t b[91], c[91];
@@ -88,8 +105,15 @@ static PyObject *configure(PyObject *mod, PyObject *args)
     memcpy(sig_band_tab, b, sizeof b);
     memcpy(sig_cell_el_tab, c, sizeof c);
     memcpy(sig_field_off, off, sizeof off);
+    memcpy(sig_epoch_off, eoff, sizeof eoff);
     Py_INCREF(type);
     Py_XSETREF(sig_sat_type, (PyTypeObject *)type);
+    Py_INCREF(etype);
+    Py_XSETREF(sig_epoch_type, (PyTypeObject *)etype);
+    sig_eval_s = eval_s;
+    sig_share = share;
+    sig_min_measured = min_meas;
+    sig_forget_s = forget;
     sig_sector_az = az;
     sig_base_min_n = min_n;
     sig_base_tau_s = tau;
@@ -116,12 +140,19 @@ PyDoc_STRVAR(baselines_doc,
 "SignalStats._baseline_sats over sats (a tuple or list) in place; returns how many satellites\n"
 "were done (the Python loop goes on from there).");
 
+PyDoc_STRVAR(step_doc,
+"step(stats, ep) -> bool\n\n"
+"SignalStats.on_epoch(ep) on stats; False (nothing changed) when the Python code must run the epoch.\n"
+"The parts it leaves (odd containers, open or starting episodes) run as the Python methods.");
+
 static PyMethodDef methods[] = {
     {"configure", configure, METH_VARARGS,
-     "configure(sat_type, sin, band, cell_el, sector_az, base_min_n, base_tau_s, lost_s, lost_cn0)\n\n"
-     "The satellite type, tables and constants of livefix.analysis.signal (called once on import)."},
+     "configure(sat_type, sin, band, cell_el, sector_az, base_min_n, base_tau_s, lost_s, lost_cn0, epoch_type,\n"
+     "          eval_s, share, min_measured, forget_s)\n\n"
+     "The satellite and epoch types, tables and constants of livefix.analysis.signal (called once on import)."},
     {"accumulate", sig_accumulate, METH_VARARGS, accumulate_doc},
     {"baselines", sig_baselines, METH_VARARGS, baselines_doc},
+    {"step", (PyCFunction)(void (*)(void))sig_step, METH_FASTCALL, step_doc},
     {NULL, NULL, 0, NULL},
 };
 
@@ -133,6 +164,9 @@ static struct PyModuleDef moduledef = {
 
 PyMODINIT_FUNC PyInit__sigcore(void)
 {
+    for (int k = 0; k < N_COUNT; k++)
+        if (sig_name[k] == NULL && (sig_name[k] = PyUnicode_InternFromString(NAMES[k])) == NULL)
+            return NULL;
     PyObject *m = PyModule_Create(&moduledef);
     if (m != NULL && PyModule_AddIntConstant(m, "API", API) < 0)
         Py_CLEAR(m);

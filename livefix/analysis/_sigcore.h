@@ -1,7 +1,8 @@
 /* livefix.analysis._sigcore: the declarations its source files share (private to the module).
  *
  * The module is built from _sigcore.c (the module and configure(): the satellite type, tables and
- * constants) and _sigcore_loops.c (accumulate() and baselines()). The value checks both loops run
+ * constants), _sigcore_loops.c (accumulate() and baselines()), _sigcore_step.c (step(): on_epoch and
+ * _accumulate) and _sigcore_interf.c (_interference). The value checks both loops run
  * per satellite are static inline here; everything else shared has the sig_ prefix and hidden
  * visibility, so the extension exports nothing but its init function.
  */
@@ -34,9 +35,34 @@ SIG_HIDDEN extern double sig_base_tau_s, sig_lost_s, sig_lost_cn0;
 
 SIG_HIDDEN int sig_need_config(void);  /* 0 with RuntimeError when configure() was not called */
 
+/* the epoch fields step() reads, and the constants of SignalStats.on_epoch / _interference (configure()) */
+enum { E_MONO, E_SATS, E_COUNT };
+SIG_HIDDEN extern PyTypeObject *sig_epoch_type;        /* livefix.state.epoch.Epoch (held) */
+SIG_HIDDEN extern Py_ssize_t sig_epoch_off[E_COUNT];
+SIG_HIDDEN extern double sig_eval_s, sig_share, sig_forget_s;
+SIG_HIDDEN extern long long sig_min_measured;
+
+/* the attribute names step() uses (interned by the module's init) */
+enum {
+    N_LAST_SATS, N_CUR, N_CUR_SUM, N_CUR_MEAN, N_CUR_TOP4, N_IF_T, N_N, N_SUM, N_TOP4_SUM, N_TOP4_N, N_CS, N_BY_SYS,
+    N_BANDS, N_CELLS, N_CONFIG, N_MASK, N_THR, N_BASE, N_ACTIVE, N_ACCUMULATE, N_ACCUMULATE_SATS, N_INTERFERENCE,
+    N_COUNT
+};
+SIG_HIDDEN extern PyObject *sig_name[N_COUNT];
+
 /* _sigcore_loops.c */
 SIG_HIDDEN PyObject *sig_accumulate(PyObject *mod, PyObject *args);
 SIG_HIDDEN PyObject *sig_baselines(PyObject *mod, PyObject *args);
+/* the accumulate loop on checked containers (sats a list): satellites done, or -1 with an error set */
+SIG_HIDDEN Py_ssize_t sig_accumulate_run(PyObject *sats, PyObject *cs, PyObject *by_sys, PyObject *bands,
+                                         PyObject *cells, double mask);
+
+/* _sigcore_step.c: SignalStats.on_epoch (the vectorcall function step) */
+SIG_HIDDEN PyObject *sig_step(PyObject *mod, PyObject *const *args, Py_ssize_t nargs);
+
+/* _sigcore_interf.c: SignalStats._interference when no episode is open and none starts:
+ * 1 done, 0 not taken here (nothing changed: the caller runs the Python method), -1 error */
+SIG_HIDDEN int sig_interference(PyObject *self, PyObject *ep);
 
 /* ---- values ---- */
 
@@ -61,9 +87,23 @@ static inline int entry_ok(PyObject *e, const char *kinds)
     return 1;
 }
 
+/* An attribute (new reference), or NULL with no error set: the Python code then meets it itself. */
+static inline PyObject *attr(PyObject *o, int name)
+{
+    PyObject *v = PyObject_GetAttr(o, sig_name[name]);
+    if (v == NULL)
+        PyErr_Clear();
+    return v;
+}
+
 static inline PyObject *slot(PyObject *s, int f)
 {
     return *(PyObject **)((char *)s + sig_field_off[f]);
+}
+
+static inline PyObject *eslot(PyObject *ep, int f)
+{
+    return *(PyObject **)((char *)ep + sig_epoch_off[f]);
 }
 
 /* The fields of a SatObs (borrowed), or 0 when s is something else or a slot is unset. */

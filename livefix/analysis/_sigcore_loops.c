@@ -1,11 +1,72 @@
 /* livefix.analysis._sigcore: the two satellite loops, SignalStats._accumulate_sats (accumulate())
  * and SignalStats._baseline_sats (baselines()). For each satellite every value and container entry
  * is checked first and the changes follow in the Python order; a satellite the Python loop must
- * take stops the loop there (see _sigcore.c).
+ * take stops the loop there (see _sigcore.c). accumulate() keeps each entry's sums in C while it
+ * runs (Pend: the same additions in the same order) and writes every entry back once at the end.
  */
 #include "_sigcore.h"
 
 /* ---- accumulate ---- */
+
+/* The sums of one entry (a [sum, n] of by_sys or bands, or an [n, Σ sin el, Σ C/N0] of cells)
+ * while the loop runs: added here in the Python order and written back once at the end, so an
+ * entry many satellites add to is not rebuilt per satellite. Keyed by the list itself, so a list
+ * held in two places gets every addition in order, as the Python entries would. */
+typedef struct {
+    PyObject *e; /* borrowed: the containers hold it, no Python code runs while the loop does */
+    double f1, f2;
+    long long n;
+    int cell, dirty;
+} Pend;
+
+#define PEND_CAP 256 /* power of 2 */
+#define PEND_MAX 160 /* entries per call; past that the Python loop takes the rest */
+#define PEND_COUNT_MAX (1LL << 62)
+
+/* The pending sums of entry e (checked "fi", or "iff" when cell), read from it the first time;
+ * NULL when the table is full or a count is too large to add to here. */
+static Pend *pend_get(Pend *tab, int *used, PyObject *e, int cell)
+{
+    size_t j = ((size_t)e >> 4) & (PEND_CAP - 1);
+    while (tab[j].e != NULL && tab[j].e != e)
+        j = (j + 1) & (PEND_CAP - 1);
+    Pend *p = &tab[j];
+    if (p->e != NULL)
+        return p->cell == cell ? p : NULL;
+    if (*used >= PEND_MAX)
+        return NULL;
+    PyObject *n = PyList_GET_ITEM(e, cell ? 0 : 1);
+    long long nv = PyLong_AsLongLong(n);
+    if (nv > PEND_COUNT_MAX || nv < -PEND_COUNT_MAX)
+        return NULL;
+    p->e = e;
+    p->cell = cell;
+    p->dirty = 0;
+    p->n = nv;
+    p->f1 = PyFloat_AS_DOUBLE(PyList_GET_ITEM(e, cell ? 1 : 0));
+    p->f2 = cell ? PyFloat_AS_DOUBLE(PyList_GET_ITEM(e, 2)) : 0.0;
+    (*used)++;
+    return p;
+}
+
+/* The pending sums written back into their lists: 0, or -1 (no memory) */
+static int pend_flush(Pend *tab)
+{
+    int r = 0;
+    for (size_t j = 0; j < PEND_CAP; j++) {
+        Pend *p = &tab[j];
+        if (p->e == NULL || !p->dirty)
+            continue;
+        if (p->cell) {
+            if (put(p->e, 0, PyLong_FromLongLong(p->n)) < 0 || put(p->e, 1, PyFloat_FromDouble(p->f1)) < 0
+                || put(p->e, 2, PyFloat_FromDouble(p->f2)) < 0)
+                r = -1;
+        }
+        else if (put(p->e, 0, PyFloat_FromDouble(p->f1)) < 0 || put(p->e, 1, PyLong_FromLongLong(p->n)) < 0)
+            r = -1;
+    }
+    return r;
+}
 
 PyObject *sig_accumulate(PyObject *mod, PyObject *args)
 {
@@ -16,22 +77,35 @@ PyObject *sig_accumulate(PyObject *mod, PyObject *args)
         return NULL;
     if (!sig_need_config())
         return NULL;
-    double maskd, sum[5];
-    if (!num_of(mask, &maskd) || !PyList_CheckExact(cs) || PyList_GET_SIZE(cs) != 5 || !PyDict_CheckExact(by_sys)
-        || !PyDict_CheckExact(cells) || !PyList_CheckExact(bands))
+    double maskd;
+    if (!num_of(mask, &maskd) || !PyList_CheckExact(cs) || !PyDict_CheckExact(by_sys) || !PyDict_CheckExact(cells)
+        || !PyList_CheckExact(bands))
         return PyLong_FromLong(0);
+    Py_ssize_t i = sig_accumulate_run(sats, cs, by_sys, bands, cells, maskd);
+    return i < 0 ? NULL : PyLong_FromSsize_t(i);
+}
+
+Py_ssize_t sig_accumulate_run(PyObject *sats, PyObject *cs, PyObject *by_sys, PyObject *bands, PyObject *cells,
+                              double maskd)
+{
+    double sum[5];
+    if (PyList_GET_SIZE(cs) != 5)
+        return 0;
     for (int k = 0; k < 5; k++) {
         PyObject *x = PyList_GET_ITEM(cs, k);
         if (!PyFloat_CheckExact(x))
-            return PyLong_FromLong(0);
+            return 0;
         sum[k] = PyFloat_AS_DOUBLE(x);
     }
     PyObject *last = NULL, *acc = NULL; /* strong: the system of the previous satellite and its sums */
+    Pend tab[PEND_CAP], *pacc = NULL;
+    memset(tab, 0, sizeof tab);
     Py_ssize_t i = 0;
-    int failed = 0;
+    int failed = 0, used = 0;
     for (; i < PyList_GET_SIZE(sats); i++) {
         PyObject *v[F_COUNT], *s = PyList_GET_ITEM(sats, i), *b = NULL, *key = NULL, *cell = NULL;
-        if (!fields_of(s, v))
+        Pend *pb = NULL, *pc = NULL, *pf = NULL;
+        if (used > PEND_MAX - 3 || !fields_of(s, v))
             break;
         /* -- checks: nothing is changed for a satellite the Python loop must take -- */
         double c = 0.0, x = 0.0;
@@ -63,7 +137,7 @@ PyObject *sig_accumulate(PyObject *mod, PyObject *args)
             if (bi < 0 || bi >= nb)
                 break;
             b = PyList_GET_ITEM(bands, bi);
-            if (!entry_ok(b, "fi"))
+            if (!entry_ok(b, "fi") || (pb = pend_get(tab, &used, b, 0)) == NULL)
                 break;
             in_curve = (double)el >= maskd;
         }
@@ -101,7 +175,7 @@ PyObject *sig_accumulate(PyObject *mod, PyObject *args)
                 break;
             }
             cell = PyDict_GetItemWithError(cells, key); /* a tuple of ints: no Python code, no error */
-            if (cell != NULL && !entry_ok(cell, "iff")) {
+            if (cell != NULL && (!entry_ok(cell, "iff") || (pc = pend_get(tab, &used, cell, 1)) == NULL)) {
                 Py_DECREF(key);
                 break;
             }
@@ -110,7 +184,7 @@ PyObject *sig_accumulate(PyObject *mod, PyObject *args)
         PyObject *found = NULL;
         if (!same) {
             found = PyDict_GetItemWithError(by_sys, v[F_SYSTEM]);
-            if (found != NULL && !entry_ok(found, "fi")) {
+            if (found != NULL && (!entry_ok(found, "fi") || (pf = pend_get(tab, &used, found, 0)) == NULL)) {
                 Py_XDECREF(key);
                 break;
             }
@@ -130,19 +204,25 @@ PyObject *sig_accumulate(PyObject *mod, PyObject *args)
                     failed = 1;
                     break;
                 }
+                pf = pend_get(tab, &used, acc, 0); /* a new list, room checked above: not NULL */
             }
             else
                 acc = Py_NewRef(found);
+            pacc = pf;
         }
-        if (add_float(acc, 0, c) < 0 || add_one(acc, 1) < 0) {
+        if (pacc == NULL || (in_band && pb == NULL)) { /* cannot be: checked above */
             Py_XDECREF(key);
+            PyErr_SetString(PyExc_SystemError, "_sigcore.accumulate: no sums for an entry");
             failed = 1;
             break;
         }
-        if (in_band && (add_float(b, 0, c) < 0 || add_one(b, 1) < 0)) {
-            Py_XDECREF(key);
-            failed = 1;
-            break;
+        pacc->f1 += c; /* acc[0] += c; acc[1] += 1 */
+        pacc->n += 1;
+        pacc->dirty = 1;
+        if (in_band) {
+            pb->f1 += c;
+            pb->n += 1;
+            pb->dirty = 1;
         }
         if (in_curve) {
             sum[0] += 1.0;
@@ -161,25 +241,33 @@ PyObject *sig_accumulate(PyObject *mod, PyObject *args)
                     failed = 1;
                     break;
                 }
+                pc = pend_get(tab, &used, cell, 1);
             }
             Py_DECREF(key);
-            if (add_one(cell, 0) < 0 || add_float(cell, 1, x) < 0 || add_float(cell, 2, c) < 0) {
+            if (pc == NULL) {
+                PyErr_SetString(PyExc_SystemError, "_sigcore.accumulate: no sums for a cell");
                 failed = 1;
                 break;
             }
+            pc->n += 1;
+            pc->f1 += x;
+            pc->f2 += c;
+            pc->dirty = 1;
         }
     }
     Py_XDECREF(last);
     Py_XDECREF(acc);
+    if (pend_flush(tab) < 0) /* the entries' sums as far as they got, as the in-place adds left them */
+        failed = 1;
     for (int k = 0; k < 5; k++) /* as the Python finally: the sums as far as they got */
         if (put(cs, k, PyFloat_FromDouble(sum[k])) < 0)
             failed = 1;
     if (failed) {
         if (!PyErr_Occurred())
             PyErr_NoMemory();
-        return NULL;
+        return -1;
     }
-    return PyLong_FromSsize_t(i);
+    return i;
 }
 
 /* ---- baselines ---- */
@@ -230,6 +318,10 @@ PyObject *sig_baselines(PyObject *mod, PyObject *args)
             b0 = PyFloat_AS_DOUBLE(PyList_GET_ITEM(b, 0));
             bn = PyLong_AsLongLong(PyList_GET_ITEM(b, 1));
             b2 = PyFloat_AS_DOUBLE(PyList_GET_ITEM(b, 2));
+            if (bn == -1 && has_c) { /* 1.0 / (bn + 1): ZeroDivisionError in the Python loop */
+                Py_DECREF(key);
+                break;
+            }
         }
         /* -- changes, in the Python order -- */
         if (PySet_Add(seen, key) < 0) {

@@ -52,7 +52,8 @@ _NO_SYSTEM = object()  # matches no system letter
 
 
 # what the C loops take from this module (handed over once by livefix/analysis/signal_native.py)
-_CORE_ARGS = (SatObs, _SIN, _BAND, _CELL_EL, SECTOR_AZ, BASE_MIN_N, BASE_TAU_S, LOST_S, LOST_CN0)
+_CORE_ARGS = (SatObs, _SIN, _BAND, _CELL_EL, SECTOR_AZ, BASE_MIN_N, BASE_TAU_S, LOST_S, LOST_CN0,
+              Epoch, EVAL_S, SHARE, MIN_MEASURED, FORGET_S)
 _CORE = signal_native.load(_CORE_ARGS)
 
 
@@ -98,6 +99,8 @@ class SignalStats:
 
     # -- per epoch --------------------------------------------------------------------------
     def on_epoch(self, ep: Epoch) -> None:
+        if self._core is not None and self._core.step(self, ep):
+            return  # done in C (_sigcore_step.c); False: nothing was changed, the code below runs the epoch
         if ep.sats is not self._last_sats:  # the state model reuses the tuple while unchanged
             self._last_sats = ep.sats
             self.cur = [s for s in ep.sats if s.cn0 and s.cn0 > 0]

@@ -12,7 +12,7 @@ from types import ModuleType
 
 from livefix import corepick
 
-API = 1  # the interface of _sigcore spoken here; a build of another one is not used
+API = 2  # the interface of _sigcore spoken here; a build of another one is not used
 
 
 def configure(core: ModuleType, args: tuple) -> bool:

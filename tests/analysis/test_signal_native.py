@@ -73,7 +73,7 @@ def _snapshot(s: SignalStats) -> str:
 
 
 def test_core_is_configured_and_selected(monkeypatch: pytest.MonkeyPatch) -> None:
-    assert signal._CORE is core and core.API == 1
+    assert signal._CORE is core and core.API == 2
     cfg = AnalysisConfig()
     monkeypatch.delenv("LIVEFIX_PURE", raising=False)
     assert SignalStats(cfg, print)._core is core
@@ -91,12 +91,18 @@ def test_configure_refuses_what_it_cannot_hold() -> None:
     class NoSlots:
         system = prn = signal = elev = azim = cn0 = None
 
+    args = signal._CORE_ARGS
     with pytest.raises(TypeError):
-        core.configure(NoSlots, signal._SIN, signal._BAND, signal._CELL_EL, 30, 5, 30.0, 10.0, 20.0)
+        core.configure(NoSlots, *args[1:])
     with pytest.raises(ValueError):
-        core.configure(SatObs, signal._SIN[:90], signal._BAND, signal._CELL_EL, 30, 5, 30.0, 10.0, 20.0)
+        core.configure(args[0], signal._SIN[:90], *args[2:])
     with pytest.raises(TypeError):
-        core.configure(SatObs, signal._SIN, [float(b) for b in signal._BAND], signal._CELL_EL, 30, 5, 30.0, 10.0, 20.0)
+        core.configure(*args[:2], [float(b) for b in signal._BAND], *args[3:])
+    class NoEpochSlots:
+        mono = sats = None
+
+    with pytest.raises(TypeError):  # the epoch type too must have its fields as slots
+        core.configure(*args[:9], NoEpochSlots, *args[10:])
     assert signal_native.configure(core, signal._CORE_ARGS)  # configured again as on import, for what follows
 
 
