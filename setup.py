@@ -50,7 +50,7 @@ C_CORES = {
     "livefix._native": (
         ["livefix/_native.c", "livefix/_native_decode.c", "livefix/_native_fields.c", "livefix/_native_make.c",
          "livefix/_native_front.c", "livefix/_native_pump.c"],
-        ["livefix/_native.h", "livefix/_native_front.h"],
+        ["livefix/_native.h", "livefix/_native_front.h", "livefix/_corekit.h"],
     ),
     # GSV set assembly (livefix/state/gsv.py keeps the reference and picks this one when built)
     "livefix.state._gsvcore": (

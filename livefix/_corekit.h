@@ -8,6 +8,7 @@
 #define LIVEFIX_COREKIT_H
 
 #include <Python.h>
+#include <stdint.h>
 #include <structmember.h>
 
 #define EXACT_INT_MAX 9007199254740992LL /* 2**53: ints up to this convert to double exactly */
@@ -87,6 +88,22 @@ static inline int kit_slot_offsets(PyObject *type, const char *const *names, int
         }
     }
     return 0;
+}
+
+/* ---- a dict's modification stamp ---- */
+
+/* The version tag of PEP 509 (CPython 3.11): every insert, delete or value change of d gives it a
+ * new, never reused value, so an equal stamp means d still holds what it held. The caches built on
+ * it (DecoderFront, EpochCore) keep borrowed pointers to d's values, valid while the stamp is the
+ * same. 0: no stamp (3.12 deprecated the field), which turns those caches off. */
+static inline uint64_t kit_dict_stamp(PyObject *d)
+{
+#if PY_VERSION_HEX >= 0x030B0000 && PY_VERSION_HEX < 0x030C0000 && !defined(Py_LIMITED_API)
+    return ((PyDictObject *)d)->ma_version_tag;
+#else
+    (void)d;
+    return 0;
+#endif
 }
 
 /* ---- reading a field mapping (the state cores) ---- */

@@ -44,6 +44,7 @@ NAT_HIDDEN PyObject *nat_convert(int conv, const char *s, Py_ssize_t n);
 /* _native_decode.c */
 NAT_HIDDEN int nat_decode_init(void);  /* interned field names: once, from the module init */
 NAT_HIDDEN PyObject *nat_decode(PyObject *self, PyObject *arg);
+NAT_HIDDEN int nat_decode_parts(PyObject *arg, PyObject **info, PyObject **fields);  /* DecoderFront */
 NAT_HIDDEN PyObject *nat_configure(PyObject *self, PyObject *args);
 NAT_HIDDEN PyObject *nat_field_names(PyObject *self, PyObject *arg);
 

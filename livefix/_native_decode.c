@@ -155,19 +155,20 @@ static PyObject *gsv_fields(const char *const *fs, const Py_ssize_t *fl, int nf)
     return d;
 }
 
-PyObject *nat_decode(PyObject *self, PyObject *arg)
+/* decode()'s work without its result pair (DecoderFront reads the two parts): 1 with *info (borrowed)
+ * and *fields (new), 0 when the line is declined, -1 on error */
+int nat_decode_parts(PyObject *arg, PyObject **info, PyObject **fields)
 {
-    (void)self;
-    if (nat_yy_pivot < 0) { PyErr_SetString(PyExc_RuntimeError, "livefix._native: configure() first"); return NULL; }
-    if (!PyBytes_CheckExact(arg)) Py_RETURN_NONE;
+    if (nat_yy_pivot < 0) { PyErr_SetString(PyExc_RuntimeError, "livefix._native: configure() first"); return -1; }
+    if (!PyBytes_CheckExact(arg)) return 0;
     const char *s = PyBytes_AS_STRING(arg);
     Py_ssize_t n = PyBytes_GET_SIZE(arg);
-    if (n < 10 || n > MAX_LINE || s[0] != '$' || s[6] != ',' || s[n - 3] != '*') Py_RETURN_NONE;
+    if (n < 10 || n > MAX_LINE || s[0] != '$' || s[6] != ',' || s[n - 3] != '*') return 0;
     unsigned char a = (unsigned char)s[1], b = (unsigned char)s[2];
-    if (a >= 128 || b >= 128 || TALKER[a][b] < 0) Py_RETURN_NONE;
+    if (a >= 128 || b >= 128 || TALKER[a][b] < 0) return 0;
     int t = type_of(s + 3);
     int h1 = hexval(s[n - 2]), h2 = hexval(s[n - 1]);
-    if (t < 0 || h1 < 0 || h2 < 0) Py_RETURN_NONE;
+    if (t < 0 || h1 < 0 || h2 < 0) return 0;
     /* ASCII, no '*' in the payload, checksum; split the payload in the same pass */
     const char *fs[MAX_FIELDS];
     Py_ssize_t fl[MAX_FIELDS];
@@ -177,24 +178,33 @@ PyObject *nat_decode(PyObject *self, PyObject *arg)
     for (i = 1; i < 7; i++) x ^= (unsigned char)s[i];
     for (i = 7; i < star; i++) {
         unsigned char c = (unsigned char)s[i];
-        if (c >= 128 || c == '*') Py_RETURN_NONE;
+        if (c >= 128 || c == '*') return 0;
         x ^= c;
         if (c == ',') {
-            if (nf >= MAX_FIELDS - 1) Py_RETURN_NONE;
+            if (nf >= MAX_FIELDS - 1) return 0;
             fs[nf] = s + start; fl[nf] = i - start; nf++;
             start = i + 1;
         }
     }
     fs[nf] = s + start; fl[nf] = star - start; nf++;
-    if (x != (unsigned)(h1 << 4 | h2)) Py_RETURN_NONE;
-    PyObject *fields = t == T_GSV ? gsv_fields(fs, fl, nf) : plan_fields(t, fs, fl, nf);
-    if (fields == NULL) return NULL;
-    if (fields == PUNT) Py_RETURN_NONE;
-    PyObject *info = INFO[TALKER[a][b] * NTYPES + t];
+    if (x != (unsigned)(h1 << 4 | h2)) return 0;
+    PyObject *f = t == T_GSV ? gsv_fields(fs, fl, nf) : plan_fields(t, fs, fl, nf);
+    if (f == NULL) return -1;
+    if (f == PUNT) return 0;
+    *info = INFO[TALKER[a][b] * NTYPES + t];
+    *fields = f;
+    return 1;
+}
+
+PyObject *nat_decode(PyObject *self, PyObject *arg)
+{
+    (void)self;
+    PyObject *info, *fields;
+    int r = nat_decode_parts(arg, &info, &fields);
+    if (r <= 0) return r < 0 ? NULL : Py_NewRef(Py_None);
     PyObject *out = PyTuple_New(2);
     if (out == NULL) { Py_DECREF(fields); return NULL; }
-    Py_INCREF(info);
-    PyTuple_SET_ITEM(out, 0, info);
+    PyTuple_SET_ITEM(out, 0, Py_NewRef(info));
     PyTuple_SET_ITEM(out, 1, fields);
     return out;
 }

@@ -60,15 +60,30 @@ static const char *const METHOD[] = {"add", "add_gsa", "note_unknown", "close", 
                                      "resolve"};
 static const int OWNER[] = {C_GSV, C_GSA, C_GSA, C_GSA, C_SKY, C_SKY, C_SKY, C_SKY, C_CLOCK};
 
+/* The offset of o.<name> when reading it is reading an object member (a T_OBJECT slot of an
+ * immutable type with the generic getattr: the GSV core's last_unknown), else 0 */
+static Py_ssize_t member_at(PyObject *o, PyObject *name)
+{
+    PyTypeObject *tp = Py_TYPE(o);
+    if (tp->tp_getattro != PyObject_GenericGetAttr || !(tp->tp_flags & Py_TPFLAGS_IMMUTABLETYPE)) return 0;
+    PyObject *d = _PyType_Lookup(tp, name);
+    if (d == NULL || !Py_IS_TYPE(d, &PyMemberDescr_Type)) return 0;
+    PyMemberDef *m = ((PyMemberDescrObject *)d)->d_member;
+    return m->type == T_OBJECT && m->offset >= (Py_ssize_t)sizeof(PyObject) ? m->offset : 0;
+}
+
 PyObject *st_collab(Core *s, int obj)
 {
+    uint64_t stamp = kit_dict_stamp(s->dict);
+    if (stamp != 0 && stamp == s->cstamp[obj - C_GSV]) return s->call[obj]; /* the dict is as when checked */
+    s->cstamp[obj - C_GSV] = 0;
     PyObject *now = PyDict_GetItemWithError(s->dict, S_collab[obj - C_GSV]); /* one look-up; mostly the same */
     if (now == NULL) {
         if (PyErr_Occurred()) return NULL;
         PyErr_Format(PyExc_AttributeError, "'StateModel' object has no attribute '%s'", COLLAB[obj - C_GSV]);
         return NULL;
     }
-    if (now == s->call[obj]) return now;
+    if (now == s->call[obj]) goto same;
     for (int m = C_GSV_ADD; m < NCALL; m++) { /* another collaborator: its bound methods, once */
         if (OWNER[m - C_GSV_ADD] != obj) continue;
         PyObject *b = PyObject_GetAttrString(now, METHOD[m - C_GSV_ADD]);
@@ -76,6 +91,9 @@ PyObject *st_collab(Core *s, int obj)
         Py_XSETREF(s->call[m], b);
     }
     Py_XSETREF(s->call[obj], Py_NewRef(now));
+    if (obj == C_GSV) s->unknown_at = member_at(now, st_s_last_unknown);
+same: /* no code ran in between that changed the dict: it holds call[obj] while its stamp stays */
+    if (kit_dict_stamp(s->dict) == stamp) s->cstamp[obj - C_GSV] = stamp;
     return now;
 }
 
@@ -120,6 +138,11 @@ static int core_traverse(Core *s, visitproc visit, void *arg)
 static int core_clear(Core *s)
 {
     st_open_clear(s);
+    s->mw_stamp = 0;
+    s->unknown_at = 0;
+    for (int i = 0; i < 4; i++) s->cstamp[i] = 0;
+    for (int i = 0; i < s->nkinds; i++) Py_CLEAR(s->kinds[i].mid);
+    s->nkinds = 0;
     PyMem_Free(s->keys);
     s->keys = NULL;
     s->keys_cap = 0;

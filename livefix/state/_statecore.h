@@ -24,6 +24,7 @@
 #define UNTIMED_GAP_S 2.0    /* livefix.state.model.UNTIMED_GAP_S */
 #define HALF_DAY_S 43200.0   /* livefix.state.model._HALF_DAY */
 #define KNOT_MPS (1852.0 / 3600.0) /* livefix.state.model.KNOT_MPS, the same division */
+#define ST_KINDS 16          /* msg ids whose dispatch is remembered (a receiver sends a handful) */
 
 /* A timed sentence's key (talker + msg id): the two strings when both are exact str (the
  * concatenation is then never made), else the concatenation itself in `key`. */
@@ -56,6 +57,16 @@ typedef struct {
     Key *keys;
     Py_ssize_t nkeys, keys_cap;
     PyObject *sent[MAX_SENTENCES];
+    /* Stamps of the model's dict (livefix/_corekit.h, kit_dict_stamp; 0: none): while the dict has
+     * stamp mw_stamp it holds mw_mono and mw_wall (borrowed) as _mono and _wall, so rewriting them
+     * is skipped; while it has cstamp[i], it holds call[C_GSV + i] as that collaborator. */
+    uint64_t mw_stamp, cstamp[4];
+    PyObject *mw_mono, *mw_wall;
+    Py_ssize_t unknown_at; /* call[C_GSV]'s last_unknown as a plain object member: its offset (0: GetAttr) */
+    /* on_sentence's dispatch of the msg ids seen (exact str, owned): a pure function of the text,
+     * since TIMED is a frozenset and the handler table fixed */
+    int nkinds;
+    struct { PyObject *mid; signed char timed, txt, kind; } kinds[ST_KINDS];
 } Core;
 
 /* interned names (_statecore_line.c, set once by the module init) */

@@ -250,8 +250,13 @@ int st_on_gsv(Core *s, PyObject *msg, PyObject *mono, PyObject *wall)
     Py_XDECREF(talker);
     Py_XDECREF(f);
     if (res == NULL || unpack3(res, v) < 0) goto fail;
-    PyObject *gsv = st_collab(s, C_GSV);
-    PyObject *unknown = gsv == NULL ? NULL : PyObject_GetAttr(gsv, st_s_last_unknown);
+    PyObject *gsv = st_collab(s, C_GSV), *unknown = NULL;
+    if (gsv != NULL && s->unknown_at > 0) { /* the member read as GetAttr reads it (NULL reads as None) */
+        unknown = *(PyObject **)((char *)gsv + s->unknown_at);
+        unknown = Py_NewRef(unknown != NULL ? unknown : Py_None);
+    } else if (gsv != NULL) {
+        unknown = PyObject_GetAttr(gsv, st_s_last_unknown);
+    }
     int r = unknown == NULL ? -1 : PyObject_IsTrue(unknown);
     if (r > 0) {
         PyObject *t = st_attr(s, msg, 0);

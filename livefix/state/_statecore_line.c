@@ -218,21 +218,72 @@ done:
     return r;
 }
 
+/* self._mono, self._wall = mono, wall; skipped when the dict is known to hold these very objects */
+static int put_times(Core *s, PyObject *mono, PyObject *wall)
+{
+    uint64_t now = kit_dict_stamp(s->dict);
+    if (now != 0 && now == s->mw_stamp && mono == s->mw_mono && wall == s->mw_wall) return 0;
+    s->mw_stamp = 0;
+    if (PyDict_SetItem(s->dict, st_s_mono, mono) < 0 || PyDict_SetItem(s->dict, S_wall, wall) < 0) return -1;
+    /* what the dict holds now (an old value's release may have run code): checked, then remembered */
+    if ((now = kit_dict_stamp(s->dict)) == 0) return 0;
+    PyObject *m = PyDict_GetItemWithError(s->dict, st_s_mono);
+    PyObject *w = m == NULL ? NULL : PyDict_GetItemWithError(s->dict, S_wall);
+    if (w == NULL && PyErr_Occurred()) return -1;
+    if (m == mono && w == wall && kit_dict_stamp(s->dict) == now) {
+        s->mw_stamp = now;
+        s->mw_mono = mono;
+        s->mw_wall = wall;
+    }
+    return 0;
+}
+
+/* the dispatch of a msg id: its TIMED membership, whether it is "TXT", its handler (H_*, 0 none;
+ * -1: not an exact str, looked up later, in the reference's order); remembered for exact str ids.
+ * 0, or -1 with an error set. */
+static int kind_of(Core *s, PyObject *mid, int *timed, int *txt, int *kind)
+{
+    for (int i = 0; i < s->nkinds; i++)
+        if (s->kinds[i].mid == mid) {
+            *timed = s->kinds[i].timed;
+            *txt = s->kinds[i].txt;
+            *kind = s->kinds[i].kind;
+            return 0;
+        }
+    if ((*timed = PySet_Contains(s->call[C_TIMED], mid)) < 0) return -1;
+    *txt = 0;
+    if (!*timed) {
+        *txt = PyUnicode_CheckExact(mid) ? PyUnicode_Compare(mid, S_TXT) == 0
+                                         : PyObject_RichCompareBool(mid, S_TXT, Py_EQ); /* no identity: a str */
+        if (*txt < 0) return -1;
+    }
+    *kind = -1;
+    if (!PyUnicode_CheckExact(mid)) return 0; /* its handler looked up where the reference does */
+    PyObject *h = PyDict_GetItemWithError(HANDLERS, mid);
+    if (h == NULL && PyErr_Occurred()) return -1;
+    *kind = h == NULL ? 0 : (int)PyLong_AsLong(h);
+    if (s->nkinds < ST_KINDS) {
+        int i = s->nkinds++;
+        s->kinds[i].mid = Py_NewRef(mid);
+        s->kinds[i].timed = (signed char)*timed;
+        s->kinds[i].txt = (signed char)*txt;
+        s->kinds[i].kind = (signed char)*kind;
+    }
+    return 0;
+}
+
 PyObject *st_on_sentence(Core *s, PyObject *msg, PyObject *mono, PyObject *wall)
 {
-    if (PyDict_SetItem(s->dict, st_s_mono, mono) < 0 || PyDict_SetItem(s->dict, S_wall, wall) < 0) return NULL;
+    if (put_times(s, mono, wall) < 0) return NULL;
     PyObject *prop = st_attr(s, msg, 3);
     int skip = prop == NULL ? -1 : prop == Py_False ? 0 : PyObject_IsTrue(prop);
     Py_XDECREF(prop);
     if (skip != 0) return skip < 0 ? NULL : Py_NewRef(EMPTY);
     PyObject *mid = st_attr(s, msg, 1), *out = NULL;
     if (mid == NULL) return NULL;
-    int is_timed = PySet_Contains(s->call[C_TIMED], mid);
-    if (is_timed < 0) goto fail;
+    int is_timed, txt, kind;
+    if (kind_of(s, mid, &is_timed, &txt, &kind) < 0) goto fail;
     if (!is_timed) { /* GSA, GSV, VTG, ZDA, GST, TXT...: join the open epoch (most lines) */
-        int txt = PyUnicode_CheckExact(mid) ? PyUnicode_Compare(mid, S_TXT) == 0
-                                            : PyObject_RichCompareBool(mid, S_TXT, Py_EQ); /* no identity: a str */
-        if (txt < 0) goto fail;
         if (txt) {
             PyObject *args[3] = {msg, mono, wall};
             PyObject *r = st_call_model(s, "_on_txt", args, 3);
@@ -270,10 +321,13 @@ PyObject *st_on_sentence(Core *s, PyObject *msg, PyObject *mono, PyObject *wall)
         if (st_put_ahead(s) < 0) goto fail;
     }
     if (s->nsent < MAX_SENTENCES) s->sent[s->nsent++] = Py_NewRef(mid);
-    PyObject *h = PyDict_GetItemWithError(HANDLERS, mid);
     int r = 0;
-    if (h == NULL && PyErr_Occurred()) goto fail;
-    switch (h == NULL ? 0 : PyLong_AsLong(h)) {
+    if (kind < 0) {
+        PyObject *h = PyDict_GetItemWithError(HANDLERS, mid);
+        if (h == NULL && PyErr_Occurred()) goto fail;
+        kind = h == NULL ? 0 : (int)PyLong_AsLong(h);
+    }
+    switch (kind) {
     case H_FIX: {
         PyObject *f = st_attr(s, msg, 2);
         r = f == NULL ? -1 : st_on_fix(s, mid, f);
