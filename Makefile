@@ -24,9 +24,10 @@ test: $(STAMP)
 	$(PY) -m ruff check livefix tests bench
 	# the whole suite on both paths: with the C core, then the pure-Python reference (LIVEFIX_PURE=1);
 	# the twins' differentials (marker "twin") compare both paths themselves, so they run once, in the
-	# first pass (tests/conftest.py); two workers each, so both runs fit the CI budget on 2 cores
-	$(PY) -m pytest -n 2
-	LIVEFIX_PURE=1 $(PY) -m pytest -n 2 -m "not twin"
+	# first pass (tests/conftest.py); two workers each; the slowest tests of each pass are listed, to keep
+	# both within the CI budget on 2 cores
+	$(PY) -m pytest -n 2 --durations=25
+	LIVEFIX_PURE=1 $(PY) -m pytest -n 2 -m "not twin" --durations=25
 
 lint: $(STAMP)
 	$(PY) -m ruff check livefix tests bench
