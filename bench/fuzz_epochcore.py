@@ -12,13 +12,12 @@ import argparse
 import random
 import sys
 import time
-from array import array
 from collections.abc import Iterator
-from itertools import chain
 from pathlib import Path
 from types import ModuleType, SimpleNamespace
 from typing import Any
 
+from fuzz_exact import Exact, alike, exact, same  # noqa: F401 - Exact, exact: read from here too
 from fuzz_twins import load_ext
 
 SYSTEMS = ["G", "G", "R", "E", "C", "J", "S", "I"]
@@ -99,41 +98,6 @@ def epochs(rng: random.Random, odd: float = 0.02) -> Iterator[tuple[Any, Any, tu
         yield ep, suspend, vals
 
 
-def exact(x: object) -> str:
-    """A type-exact text of a state: floats as float.hex (so -0.0, nan and every bit count), ints and
-    bools apart, containers in their own (iteration) order."""
-    if type(x) is float:
-        return "f" + x.hex()
-    if type(x) in (list, tuple):
-        return type(x).__name__[0] + "[" + ",".join(map(exact, x)) + "]"  # type: ignore[attr-defined]
-    if type(x) in (set, frozenset):
-        return "s{" + ",".join(map(exact, x)) + "}"  # type: ignore[attr-defined]
-    if type(x) is dict:
-        return "d{" + ",".join(exact(k) + ":" + exact(v) for k, v in x.items()) + "}"  # type: ignore[attr-defined]
-    return type(x).__name__ + ":" + repr(x)
-
-
-def same(a: object, b: object) -> bool:
-    """exact(a) == exact(b), quicker on long lists: types compared item by item, floats by their
-    bits (array('d') bytes; every NaN sign and payload too), lists of lists flattened."""
-    if type(a) is not type(b):
-        return False
-    if type(a) is float:
-        return array("d", [a]).tobytes() == array("d", [b]).tobytes()  # type: ignore[list-item]
-    if type(a) in (set, frozenset, dict):
-        return same(list(a.items() if type(a) is dict else a), list(b.items() if type(b) is dict else b))  # type: ignore[attr-defined]
-    if type(a) not in (list, tuple):
-        return a == b  # int, bool, str, None
-    ta, tb = list(map(type, a)), list(map(type, b))  # type: ignore[call-overload]
-    if ta != tb:
-        return False
-    if ta.count(float) == len(ta):
-        return array("d", a).tobytes() == array("d", b).tobytes()  # type: ignore[arg-type]
-    if ta.count(list) + ta.count(type(None)) == len(ta):  # Trend.buckets: their items in one list
-        return same(list(chain.from_iterable(filter(None, a))), list(chain.from_iterable(filter(None, b))))  # type: ignore[arg-type]
-    return all(map(same, a, b))  # type: ignore[call-overload]
-
-
 def trend_state(t: Any) -> list:
     return [t.t0, t.t0_iso, t.origin, t.width, t.buckets]
 
@@ -173,7 +137,7 @@ class Trio:
         want, err = _run(counts.epoch_counts, ep)
         self.counted += got is not None
         self.handed += got is None
-        if got is not None and (err is not None or exact(got) != exact(want)):
+        if got is not None and (err is not None or not alike(got, want, exact)):
             return f"counts: {exact(got)} != {exact(want)} {err}"
         t_before = self.p_sky._t
         for name, c, p, state, args in (

@@ -18,7 +18,7 @@ import random
 from collections.abc import Iterator
 from typing import Any
 
-from fuzz_epochcore import exact
+from fuzz_epochcore import Exact, exact
 
 QUALITY = [4] * 6 + [5, 5, 2, 1, 0, 6, 9]
 NOISE = {0: 0.0, 1: 3.0, 2: 0.8, 4: 0.01, 5: 0.3, 6: 5.0, 9: 1.0}
@@ -84,7 +84,7 @@ def stream(rng: random.Random, odd: float = 0.02, rate: float = 10.0) -> Iterato
         yield "epoch", Epoch(**f)
 
 
-def state(fs: Any) -> str:
+def state(fs: Any) -> Exact:
     """The whole state of a FixStats, type-exact and bit-exact (its Timeline, TimeBook and the recent
     scatter per fix type spelt out; the projector by its frame)."""
     from livefix.analysis.streaming import Timeline
@@ -106,11 +106,11 @@ def state(fs: Any) -> str:
         elif type(v).__name__ == "deque":
             v = list(v)
         out[k] = v
-    return exact(out)
+    return Exact(out)
 
 
-def events_text(evs: list[Any]) -> str:
-    return exact([[e.mono, e.wall, e.kind, e.text, e.utc, e.data] for e in evs])
+def events_text(evs: list[Any]) -> Exact:
+    return Exact([[e.mono, e.wall, e.kind, e.text, e.utc, e.data] for e in evs])
 
 
 def _run(fn: Any, *a: Any) -> object:

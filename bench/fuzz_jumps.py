@@ -13,7 +13,7 @@ import random
 from collections.abc import Iterator
 from typing import Any
 
-from fuzz_epochcore import exact
+from fuzz_epochcore import Exact
 
 FIXES = ["rtk_fixed", "rtk_fixed", "rtk_fixed", "rtk_float", "dgnss", "single", "dead_reckoning"]
 NOISE = {"rtk_fixed": 0.01, "rtk_float": 0.2, "dgnss": 0.5, "single": 2.0, "dead_reckoning": 5.0}
@@ -65,10 +65,15 @@ def epochs(rng: random.Random, odd: float = 0.02) -> Iterator[tuple[Any, ...]]:
         yield tuple(args)
 
 
-def state(j: Any) -> str:
-    """The whole state of a Jumps, type-exact and bit-exact."""
+def state_value(j: Any) -> list:
+    """The whole state of a Jumps."""
     cs = {f: [c.n, c.c, c.vh, c.nu, c.vu] for f, c in j.centres.items()}
-    return exact([cs, j._lims, j.open, list(j.items), j.total, j.excluded, j.excluded_s])
+    return [cs, j._lims, j.open, list(j.items), j.total, j.excluded, j.excluded_s]
+
+
+def state(j: Any) -> Exact:
+    """The whole state of a Jumps, type-exact and bit-exact."""
+    return Exact(state_value(j))
 
 
 def _run(fn: Any, *a: Any) -> tuple[object, object]:

@@ -12,8 +12,8 @@ import random
 from collections.abc import Iterator
 from typing import Any
 
-from fuzz_epochcore import exact
-from fuzz_jumps import state as jumps_state
+from fuzz_epochcore import Exact
+from fuzz_jumps import state_value as jumps_state
 
 LAT0, LON0, H0 = 47.25, 8.5, 520.0  # an arbitrary site
 M_PER_DEG = 111_320.0
@@ -93,18 +93,18 @@ def config(rng: random.Random) -> Any:
                           motion_window_s=rng.choice([20.0, 4, 2.5]), converge_hold_s=rng.choice([60.0, 2]))
 
 
-def state(ps: Any) -> str:
+def state(ps: Any) -> Exact:
     """The whole per-epoch state of a PositionStats and its stages, type-exact and bit-exact."""
     m, c, clk = ps.motion, ps.conv, ps.clock
     mo = [getattr(m, k) for k in type(m).__slots__ if k not in ("cfg", "_full", "_half")]
     tracks = {k: [t._pend, t._mom.n, t._mom.nu, t._mom.m, t._mom.c] for k, t in ps.tracks.items()}
     head = c.head[: c._done].tobytes().hex() if c._done < 600 else c.head[c._done - 300: c._done].tobytes().hex()
-    return exact([ps._epochs, ps.segments, ps._best_n, ps._was_moving, ps._user_ref, ps._user_source, ps.ref,
+    return Exact([ps._epochs, ps.segments, ps._best_n, ps._was_moving, ps._user_ref, ps._user_source, ps.ref,
                   ps.ref_source, ps.ref_enu, ps.ref_fix, ps._last, ps._site_en, ps._fixed_now, ps.no_height,
                   ps.h_datum, ps.other_datum, ps._auto, [clk.t, clk.abs_time, clk.reset],
                   mo, list(m._full)[-5:], list(m._half)[:5], len(m._full), len(m._half),
                   [c.n, c._pend, c._done, c.first_fix, c.trk_h.start, c.trk_h.done, c.trk_v.start, c.trk_v.done],
-                  tracks, head]) + jumps_state(ps.jumps)
+                  tracks, head, jumps_state(ps.jumps)])
 
 
 def _run(fn: Any, *a: Any) -> tuple[object, object]:
@@ -161,7 +161,7 @@ class Pair:
         a, b = state(self.c), state(self.p)
         if a != b:
             return f"state: {a[:1500]} != {b[:1500]}"
-        if exact(self.events[0]) != exact(self.events[1]):
+        if Exact(self.events[0]) != Exact(self.events[1]):
             return "events differ"
         if snapshot:
             sa, sb = (json.dumps(_run(ps.snapshot)[0], sort_keys=True, default=repr) for ps in (self.c, self.p))

@@ -14,6 +14,7 @@ import random
 from collections.abc import Iterator
 from typing import Any
 
+from fuzz_exact import alike
 from fuzz_twins import load_ext
 
 NAN = float("nan")
@@ -143,14 +144,14 @@ class SkyTwin:
             if type(rc) is not type(rp) or str(rc) != str(rp):
                 return f"errors {rc!r} / {rp!r}"
             self.errors += 1
-        elif type(rc) is not type(rp) or _shown(rc) != _shown(rp):
+        elif type(rc) is not type(rp) or not alike(rc, rp, _shown):
             return f"results {rc!r} / {rp!r}"
         gc_, gp = self.c._groups, self.p._groups
-        if repr(list(gc_)) != repr(list(gp)) or any(a is not b for a, b in zip(gc_.values(), gp.values(), strict=True)):
+        if not alike(list(gc_), list(gp), repr) or any(a is not b for a, b in zip(gc_.values(), gp.values(), strict=True)):
             return f"groups {gc_!r} / {gp!r}"
-        if repr(list(self.c._mono.items())) != repr(list(self.p._mono.items())):
+        if not alike(list(self.c._mono.items()), list(self.p._mono.items()), repr):
             return f"monos {self.c._mono!r} / {self.p._mono!r}"
-        if repr(self.c._oldest) != repr(self.p._oldest):
+        if not alike(self.c._oldest, self.p._oldest, repr):
             return f"oldest {self.c._oldest!r} / {self.p._oldest!r}"
         if isinstance(rp, Exception) or op[0] not in ("in_view", "obs", "seen"):
             return None

@@ -14,6 +14,7 @@ from collections.abc import Callable, Iterator
 from types import MappingProxyType
 from typing import Any
 
+from fuzz_exact import alike
 from fuzz_twins import _Dict, _Fields, load_ext
 
 # System IDs as decoders give them (NMEA 0183 4.10/4.11: 1-6; "" when absent) and odd ones: digits
@@ -172,16 +173,16 @@ class UsedTwin:
             if type(rc) is not type(rp) or str(rc) != str(rp):
                 return f"errors {rc!r} / {rp!r}"
             self.errors += 1
-        elif type(rc) is not type(rp) or rc != rp or _shown(rc) != _shown(rp):
+        elif type(rc) is not type(rp) or rc != rp or not alike(rc, rp, _shown):
             return f"results {rc!r} / {rp!r}"
         for a in self.ATTRS:
-            if repr(getattr(self.c, a)) != repr(getattr(self.p, a)):
+            if not alike(getattr(self.c, a), getattr(self.p, a), repr):
                 return f"{a}: {getattr(self.c, a)!r} / {getattr(self.p, a)!r}"
         lc, lp = self.c._last, self.p._last
-        if type(lc) is not type(lp) or _shown(lc) != _shown(lp):
+        if type(lc) is not type(lp) or not alike(lc, lp, _shown):
             return f"_last {lc!r} / {lp!r}"
         (uc, nc), (up, np_) = extra
-        if nc != np_ or type(uc) is not type(up) or _shown(uc) != _shown(up):
+        if nc != np_ or type(uc) is not type(up) or not alike(uc, up, _shown):
             return f"in_view calls {nc}/{np_} or used {uc!r} / {up!r}"
         if isinstance(rp, Exception):
             return None

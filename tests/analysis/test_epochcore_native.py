@@ -43,8 +43,8 @@ class Run:
         assert why is None, f"step {self.trio.steps}: {why}"[:3000]
         self.cc.on_epoch(ep)
         self.pc.on_epoch(ep)
-        assert FUZZ.exact([self.cc.hist, self.cc._cur, self.cc._run, self.cc.epochs]) == \
-            FUZZ.exact([self.pc.hist, self.pc._cur, self.pc._run, self.pc.epochs])
+        assert FUZZ.Exact([self.cc.hist, self.cc._cur, self.cc._run, self.cc.epochs]) == \
+            FUZZ.Exact([self.pc.hist, self.pc._cur, self.pc._run, self.pc.epochs])
 
 
 def test_core_is_configured_and_selected(monkeypatch: pytest.MonkeyPatch) -> None:

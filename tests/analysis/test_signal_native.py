@@ -57,12 +57,22 @@ class Twin:
         self.steps += 1
         self.runs += self.p._if_t != t0
         self.errors += errs[1] is not None
-        where = f"step {self.steps}: {ep.mono!r} {ep.sats!r}"[:2000]
+        where = Where(self.steps, ep)  # spelt out only when an assertion fails
         assert errs[0] == errs[1], where
         assert FUZZ.sig_state(self.c) == FUZZ.sig_state(self.p), where
         assert repr(self.ec) == repr(self.ep), where
         if snapshot:  # odd values can make the snapshot raise too: the same error on both
             assert _snapshot(self.c) == _snapshot(self.p), where
+
+
+class Where:
+    """The step and epoch an assertion names; pytest shows its repr, built only on a failure."""
+
+    def __init__(self, step: int, ep: Epoch) -> None:
+        self.step, self.ep = step, ep
+
+    def __repr__(self) -> str:
+        return f"step {self.step}: {self.ep.mono!r} {self.ep.sats!r}"[:2000]
 
 
 def _snapshot(s: SignalStats) -> str:
