@@ -1,7 +1,6 @@
-"""Random item streams for the differential of the C steps of StreamIntegrity.on_epoch,
-SessionSpan.on_epoch (livefix/analysis/_epochcore_site.c) and MedianPosition.on_epoch
-(livefix/analysis/_epochcore_median.c) against their Python references (livefix/analysis/integrity.py,
-span.py, median.py), for bench/fuzz.py (`make fuzz`, under the sanitizers) and
+"""Random item streams for the differential of the C steps of StreamIntegrity.on_epoch
+(livefix/analysis/_epochcore_site.c) and MedianPosition.on_epoch (livefix/analysis/_epochcore_median.c)
+against their Python references (livefix/analysis/integrity.py, median.py), for bench/fuzz.py (`make fuzz`, under the sanitizers) and
 tests/analysis/test_site_native.py. Deterministic for a seed.
 
 A stream is an endless iterator of items: ("epoch", Epoch), ("chunk", mono) (bytes came at host time
@@ -89,9 +88,7 @@ def stream(rng: random.Random, odd: float = 0.02, rate: float = 10.0) -> Iterato
 
 
 # attributes that hold the epochs' own objects: the C step must store the very same ones
-SAME_OBJECTS = {"integrity": ("prev", "date_known"), "span": (
-    "first_utc", "last_utc", "first_wall", "last_wall", "first_wall_of_utc", "last_wall_of_utc", "date_known",
-    "last_datum")}
+SAME_OBJECTS = {"integrity": ("prev", "date_known")}
 
 
 def integrity_state(s: Any) -> list[Any]:
@@ -104,10 +101,6 @@ def integrity_state(s: Any) -> list[Any]:
     out.append(("#alias", [bool(h) and bool(q) and h[-1] is q[-1], [i for i, x in enumerate(srt) if x is nom],
                            [any(x is y for y in srt) for x in list(q)[-1:]]]))
     return out
-
-
-def span_state(s: Any) -> list[Any]:
-    return [(k, v) for k, v in vars(s).items() if k != "on_epoch"]
 
 
 def median_state(m: Any, full: bool = True) -> list[Any]:
@@ -133,7 +126,7 @@ def _medians(m: Any) -> dict[str, Any]:
 def same_objects(c: Any, p: Any, full: bool = True) -> str | None:
     """Where the reference stores an epoch's own objects, the C side holds the very same ones (full:
     in every pending row, else in the newest)."""
-    for part in ("integrity", "span"):
+    for part in ("integrity",):
         for k in SAME_OBJECTS[part]:
             if getattr(getattr(c, part), k) is not getattr(getattr(p, part), k):
                 return f"{part}.{k} is another object"
@@ -159,18 +152,16 @@ def _run(fn: Any, *a: Any) -> object:
 
 
 class Side:
-    """The three stages as the Analyzer wires them (one fix test shared), C steps on or off."""
+    """The two stages as the Analyzer wires them (one fix test shared), C steps on or off."""
 
     def __init__(self, native: bool, memo: bool) -> None:
         from livefix.analysis.config import AnalysisConfig
         from livefix.analysis.integrity import StreamIntegrity
         from livefix.analysis.median import MedianPosition
-        from livefix.analysis.span import SessionSpan
         from livefix.analysis.streaming import fix_memo, valid_fix
 
         self.events: list[Any] = []
         self.integrity = StreamIntegrity(AnalysisConfig(), self.events.append, native=native)
-        self.span = SessionSpan(native=native)
         self.median = MedianPosition(fix_memo() if memo else valid_fix, native=native)
 
 
@@ -203,7 +194,7 @@ class Pair:
             for s in (self.c, self.p):
                 s.integrity.on_event(x)
             return None
-        for name in ("integrity", "span", "median"):
+        for name in ("integrity", "median"):
             before = _done()
             got = _run(getattr(self.c, name).on_epoch, x)
             self.fast += _done() - before
@@ -220,8 +211,7 @@ class Pair:
         before = dict(self._pend)
         full = self.steps % 97 == 0 or len(pend) != len(before) or any(n < before.get(k, n) for k, n in pend)
         self._pend = pend
-        for name, fn in (("integrity", integrity_state), ("span", span_state),
-                         ("median", lambda m: median_state(m, full))):
+        for name, fn in (("integrity", integrity_state), ("median", lambda m: median_state(m, full))):
             a, b = fn(getattr(c, name)), fn(getattr(p, name))
             if not same(a, b):
                 return f"{name} state: {exact(a)[:1500]} != {exact(b)[:1500]}"
@@ -236,7 +226,7 @@ class Pair:
         out = []
         for s in (self.c, self.p):
             snap: list[Any] = []
-            for fn, a in ((s.integrity.snapshot, (counters,)), (s.span.snapshot, ()), (s.median.snapshot, ())):
+            for fn, a in ((s.integrity.snapshot, (counters,)), (s.median.snapshot, ())):
                 try:
                     snap.append(fn(*a))
                 except Exception as err:  # noqa: BLE001 - odd values may fail both alike

@@ -22,7 +22,7 @@
  * _epochcore_trend.c and _epochcore_sky.c (one pass each), _epochcore_geo.c (the projection memo
  * and configure_geo), _epochcore_jumps.c (jumps_settled and configure_jumps) and their private
  * header _epochcore.h
- * (the value checks the passes share). _epochcore_site.c (integrity_epoch, span_epoch) and
+ * (the value checks the passes share). _epochcore_site.c (integrity_epoch) and
  * _epochcore_median.c (median_epoch) are the steps of the site record's stages, with their configure_*,
  * and _epochcore_bind.c binds them to their stage (bind_step).
  */
@@ -180,11 +180,6 @@ static PyMethodDef methods[] = {
     {"integrity_epoch", (PyCFunction)(void (*)(void))ep_integrity_epoch, METH_FASTCALL,
      "integrity_epoch(stats, ep) -> bool\n\nStreamIntegrity.on_epoch for an epoch of a running session, in place;\n"
      "False (nothing changed) when the Python code must do it."},
-    {"configure_span", ep_configure_span, METH_VARARGS,
-     "configure_span(span_type, epoch_type, max_datums): the types and constant of livefix.analysis.span."},
-    {"span_epoch", (PyCFunction)(void (*)(void))ep_span_epoch, METH_FASTCALL,
-     "span_epoch(span, ep) -> bool\n\nSessionSpan.on_epoch after the first timed epoch, in place; False (nothing\n"
-     "changed) when the Python code must do it."},
     {"configure_median", ep_configure_median, METH_VARARGS,
      "configure_median(median_type, fix_medians_type, binned_type, epoch_type, fix_names, none, batch, max_bins):\n"
      "the types and constants of livefix.analysis.median."},
@@ -192,7 +187,7 @@ static PyMethodDef methods[] = {
      "median_epoch(median, ep) -> bool\n\nMedianPosition.on_epoch (with the batch settle) in place; False (nothing\n"
      "changed) when the Python code must do it."},
     {"bind_step", ep_bind_step, METH_VARARGS,
-     "bind_step(kind, stage, reference) -> callable\n\nkind 'integrity', 'span' or 'median': on_epoch(ep) for the\n"
+     "bind_step(kind, stage, reference) -> callable\n\nkind 'integrity' or 'median': on_epoch(ep) for the\n"
      "stage, running its C step and, when the step hands back, reference(stage, ep)."},
     {"site_counts", ep_site_counts, METH_NOARGS,
      "site_counts() -> {kind: (done, handed back)}: the epochs of the bound steps (for the tests)."},

@@ -66,15 +66,13 @@ EP_HIDDEN PyObject *ep_position_epoch(PyObject *mod, PyObject *const *a, Py_ssiz
 EP_HIDDEN PyObject *ep_configure_fix(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_fix_step(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 
-/* the running-session cases of StreamIntegrity.on_epoch and SessionSpan.on_epoch: _epochcore_site.c, and
+/* the running-session case of StreamIntegrity.on_epoch: _epochcore_site.c, and
  * MedianPosition.on_epoch with its batch settle: _epochcore_median.c (their configurations live there too) */
 EP_HIDDEN PyObject *ep_configure_integrity(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_integrity_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
-EP_HIDDEN PyObject *ep_configure_span(PyObject *mod, PyObject *args);
-EP_HIDDEN PyObject *ep_span_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 EP_HIDDEN PyObject *ep_configure_median(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_median_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
-/* those three bound to their stage as its on_epoch, and their counts: _epochcore_bind.c */
+/* those two bound to their stage as its on_epoch, and their counts: _epochcore_bind.c */
 EP_HIDDEN PyObject *ep_bind_step(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_site_counts(PyObject *mod, PyObject *args);
 

@@ -1,8 +1,8 @@
 /* livefix.analysis._epochcore: bind_step(), the site record's C steps bound to their stage as its
  * on_epoch; the steps are in _epochcore_site.c and _epochcore_median.c, the module in _epochcore.c.
  *
- * Why: a Python on_epoch that only asks the C step costs a frame per stage and epoch, about what the
- * C step of SessionSpan saves. The bound step is a builtin method of the stage (its __qualname__ is
+ * Why: a Python on_epoch that only asks the C step costs a frame per stage and epoch, about what a
+ * small C step saves. The bound step is a builtin method of the stage (its __qualname__ is
  * the reference's, "StreamIntegrity.on_epoch", as the Analyzer's error notes show it): it runs the C
  * step and, when the step hands back (False, nothing changed), the reference function (the class's own
  * on_epoch, unchanged, given to bind_step) on the stage, so the Python code meets every case it would
@@ -12,15 +12,15 @@
  */
 #include "_epochcore.h"
 
-enum { K_INTEGRITY, K_SPAN, K_MEDIAN, K_COUNT };
-static const char *KINDS[K_COUNT] = {"integrity", "span", "median"};
+enum { K_INTEGRITY, K_MEDIAN, K_COUNT };
+static const char *KINDS[K_COUNT] = {"integrity", "median"};
 static unsigned long long done_n[K_COUNT], handed_n[K_COUNT];
 static PyObject *refs[K_COUNT]; /* the reference of each kind: the class's on_epoch, set by bind_step */
 
 static PyObject *run(int kind, PyObject *stage, PyObject *ep)
 {
     static PyObject *(*const steps[K_COUNT])(PyObject *, PyObject *const *, Py_ssize_t) = {
-        ep_integrity_epoch, ep_span_epoch, ep_median_epoch};
+        ep_integrity_epoch, ep_median_epoch};
     PyObject *a[2] = {stage, ep}, *r = steps[kind](NULL, a, 2);
     if (r == NULL)
         return NULL;
@@ -35,13 +35,11 @@ static PyObject *run(int kind, PyObject *stage, PyObject *ep)
 }
 
 static PyObject *integrity_bound(PyObject *stage, PyObject *ep) { return run(K_INTEGRITY, stage, ep); }
-static PyObject *span_bound(PyObject *stage, PyObject *ep) { return run(K_SPAN, stage, ep); }
 static PyObject *median_bound(PyObject *stage, PyObject *ep) { return run(K_MEDIAN, stage, ep); }
 
 #define BOUND_DOC "on_epoch(ep): the C step, or the reference when it hands back (livefix.analysis._epochcore)"
 static PyMethodDef BOUND[K_COUNT] = {
     {"on_epoch", integrity_bound, METH_O, BOUND_DOC},
-    {"on_epoch", span_bound, METH_O, BOUND_DOC},
     {"on_epoch", median_bound, METH_O, BOUND_DOC},
 };
 
@@ -64,7 +62,7 @@ PyObject *ep_bind_step(PyObject *Py_UNUSED(mod), PyObject *args)
             Py_XSETREF(refs[k], Py_NewRef(ref));
             return PyCFunction_NewEx(&BOUND[k], stage, NULL);
         }
-    PyErr_Format(PyExc_ValueError, "bind_step: no step %s (integrity, span or median)", kind);
+    PyErr_Format(PyExc_ValueError, "bind_step: no step %s (integrity or median)", kind);
     return NULL;
 }
 

@@ -1,10 +1,9 @@
 /* livefix.analysis._epochcore: the running-session case of StreamIntegrity.on_epoch
- * (livefix/analysis/integrity.py) as integrity_epoch() and of SessionSpan.on_epoch
- * (livefix/analysis/span.py) as span_epoch(), with their configure_* functions; the module itself is
+ * (livefix/analysis/integrity.py) as integrity_epoch(), with configure_integrity; the module itself is
  * in _epochcore.c, MedianPosition's step in _epochcore_median.c.
  *
- * Why: both run every epoch and nearly every epoch is the same story: the span moves its last times
- * on, and the stream integrity takes one epoch interval into its windows (the host interval into
+ * Why: it runs every epoch and nearly every epoch is the same story: the stream integrity takes one
+ * epoch interval into its windows (the host interval into
  * iv_host, the receiver interval into iv_nominal and its sorted copy, whose median is the nominal
  * interval). That case is done here with the same float operations in the same order, storing the
  * same Python objects (ep's own attributes, one float object for `dt = host` when the receiver time
@@ -12,32 +11,27 @@
  *
  * Hand-over: everything is read and checked before anything is written. The first epoch, an epoch
  * after a stall (holes to place), a gap (an interval over GAP_FACTOR x nominal: an ISO time and a
- * listed gap), a NaN in the window, the span's first times, and any value or container of another
+ * listed gap), a NaN in the window, and any value or container of another
  * type: the function returns False having changed nothing and the Python code runs the reference.
  * tests/analysis/test_site_native.py compares the two step by step.
  */
 #include "_epochcore.h"
 
-enum { EP_MONO, EP_WALL, EP_UTC, EP_DATE_KNOWN, EP_DATUM, EP_COUNT };
-static const char *EP_FIELDS[EP_COUNT] = {"mono", "wall", "utc", "date_known", "datum"};
+enum { EP_MONO, EP_UTC, EP_DATE_KNOWN, EP_COUNT };
+static const char *EP_FIELDS[EP_COUNT] = {"mono", "utc", "date_known"};
 enum { I_EPOCHS, I_DATE_KNOWN, I_PREV, I_HOLES, I_NOMINAL, I_IV_HOST, I_IV_NOMINAL, I_IV_SORTED, I_IV_NAN,
        I_COUNT };
 static const char *I_NAMES[I_COUNT] = {"epochs", "date_known", "prev", "_holes", "_nominal", "iv_host",
                                        "iv_nominal", "_iv_sorted", "_iv_nan"};
-enum { SP_EPOCHS, SP_FIRST_WALL, SP_LAST_WALL, SP_FIRST_UTC, SP_LAST_UTC, SP_LAST_WALL_OF_UTC, SP_DATE_KNOWN, SP_DATUMS,
-       SP_DATUM_EPOCHS, SP_LAST_DATUM, SP_COUNT };
-static const char *SP_NAMES[SP_COUNT] = {"epochs", "first_wall", "last_wall", "first_utc", "last_utc",
-                                       "last_wall_of_utc", "date_known", "datums", "datum_epochs", "last_datum"};
 
 #define WINDOW_MAX (1 << 20) /* the longest interval window taken here (integrity.WINDOW is 256) */
 
-/* module state, set by configure_integrity and configure_span */
-static PyTypeObject *it_type, *it_epoch, *it_deque, *sp_type, *sp_epoch;
-static Py_ssize_t it_ep[EP_COUNT], sp_ep[EP_COUNT];
+/* module state, set by configure_integrity */
+static PyTypeObject *it_type, *it_epoch, *it_deque;
+static Py_ssize_t it_ep[EP_COUNT];
 static Py_ssize_t it_window;      /* integrity.WINDOW */
 static double it_gap_factor;      /* integrity.GAP_FACTOR */
-static Py_ssize_t sp_max_datums;  /* span.MAX_DATUMS */
-static PyObject *it_names[I_COUNT], *sp_names[SP_COUNT], *it_append, *s_maxlen; /* it_append: deque.append */
+static PyObject *it_names[I_COUNT], *it_append, *s_maxlen; /* it_append: deque.append */
 
 static int intern_all(PyObject **vars, const char *const *names, int n)
 {
@@ -70,26 +64,6 @@ PyObject *ep_configure_integrity(PyObject *Py_UNUSED(mod), PyObject *args)
     Py_XSETREF(it_deque, (PyTypeObject *)Py_NewRef(dq));
     it_window = window, it_gap_factor = gapf;
     Py_XSETREF(it_type, (PyTypeObject *)Py_NewRef(st)); /* last: integrity_epoch's "configured" */
-    Py_RETURN_NONE;
-}
-
-PyObject *ep_configure_span(PyObject *Py_UNUSED(mod), PyObject *args)
-{
-    PyObject *st, *epo;
-    Py_ssize_t maxd, off[EP_COUNT];
-    if (!PyArg_ParseTuple(args, "O!O!n", &PyType_Type, &st, &PyType_Type, &epo, &maxd)
-        || kit_slot_offsets(epo, EP_FIELDS, EP_COUNT, off, "%s is not a slot of %R") < 0)
-        return NULL;
-    if (maxd < 0) {
-        PyErr_SetString(PyExc_ValueError, "configure_span: MAX_DATUMS of 0 or more");
-        return NULL;
-    }
-    if (intern_all(sp_names, SP_NAMES, SP_COUNT) < 0)
-        return NULL;
-    memcpy(sp_ep, off, sizeof off);
-    Py_XSETREF(sp_epoch, (PyTypeObject *)Py_NewRef(epo));
-    sp_max_datums = maxd;
-    Py_XSETREF(sp_type, (PyTypeObject *)Py_NewRef(st)); /* last: span_epoch's "configured" */
     Py_RETURN_NONE;
 }
 
@@ -292,77 +266,5 @@ done:
     Py_XDECREF(hostv);
     Py_XDECREF(dtv);
     Py_XDECREF(nomv);
-    return rc < 0 ? NULL : Py_NewRef(rc ? Py_True : Py_False);
-}
-
-PyObject *ep_span_epoch(PyObject *Py_UNUSED(mod), PyObject *const *args, Py_ssize_t nargs)
-{
-    if (!ep_ready(sp_type != NULL))
-        return NULL;
-    if (nargs != 2) {
-        PyErr_SetString(PyExc_TypeError, "span_epoch takes 2 arguments");
-        return NULL;
-    }
-    PyObject *self = args[0], *ep = args[1], *d, *v[SP_COUNT], *n1 = NULL, *n2 = NULL, *n3 = NULL;
-    int rc = 0;
-    if (Py_TYPE(self) != sp_type || Py_TYPE(ep) != sp_epoch)
-        Py_RETURN_FALSE;
-    if ((d = PyObject_GenericGetDict(self, NULL)) == NULL)
-        return NULL;
-    PyObject *wall = slot(ep, sp_ep[EP_WALL]), *utc = slot(ep, sp_ep[EP_UTC]), *dat = slot(ep, sp_ep[EP_DATUM]);
-    PyObject *dk = NULL, *count = NULL;
-    long long epochs, dn, c = 0;
-    if ((rc = read_all(d, sp_names, SP_COUNT, v)) != 1)
-        goto done;
-    rc = 0;
-    if (!count_of(v[SP_EPOCHS], &epochs) || epochs >= COUNT_MAX
-        || v[SP_FIRST_WALL] == Py_None || wall == NULL || utc == NULL || dat == NULL)
-        goto done;
-    if (utc != Py_None) {
-        if (v[SP_FIRST_UTC] == Py_None || (v[SP_DATE_KNOWN] != Py_True && v[SP_DATE_KNOWN] != Py_False))
-            goto done;
-        /* `self.date_known and ep.date_known`: True gives ep's value, False stays */
-        dk = v[SP_DATE_KNOWN] == Py_True ? slot(ep, sp_ep[EP_DATE_KNOWN]) : Py_False;
-        if (dk == NULL)
-            goto done;
-    }
-    if (dat != Py_None) { /* an exact tuple of two exact str: hashing and comparing it runs no Python code */
-        if (!PyTuple_CheckExact(dat) || PyTuple_GET_SIZE(dat) != 2 || !PyUnicode_CheckExact(PyTuple_GET_ITEM(dat, 0))
-            || !PyUnicode_CheckExact(PyTuple_GET_ITEM(dat, 1)) || !PyDict_CheckExact(v[SP_DATUMS])
-            || !count_of(v[SP_DATUM_EPOCHS], &dn) || dn >= COUNT_MAX)
-            goto done;
-        count = PyDict_GetItemWithError(v[SP_DATUMS], dat);
-        if (count == NULL && PyErr_Occurred())
-            goto done;
-        if (count != NULL && (!count_of(count, &c) || c >= COUNT_MAX))
-            goto done;
-        if (count == NULL && PyDict_GET_SIZE(v[SP_DATUMS]) >= sp_max_datums)
-            count = Py_None; /* not listed: only counted */
-        if ((n2 = PyLong_FromLongLong(dn + 1)) == NULL || (count != Py_None && (n3 = PyLong_FromLongLong(c + 1)) == NULL))
-            goto fail;
-    }
-    if ((n1 = PyLong_FromLongLong(epochs + 1)) == NULL)
-        goto fail;
-    if (PyDict_SetItem(d, sp_names[SP_EPOCHS], n1) < 0 || PyDict_SetItem(d, sp_names[SP_LAST_WALL], wall) < 0)
-        goto fail;
-    if (utc != Py_None && (PyDict_SetItem(d, sp_names[SP_LAST_UTC], utc) < 0
-                           || PyDict_SetItem(d, sp_names[SP_LAST_WALL_OF_UTC], wall) < 0
-                           || PyDict_SetItem(d, sp_names[SP_DATE_KNOWN], dk) < 0))
-        goto fail;
-    if (dat != Py_None && (PyDict_SetItem(d, sp_names[SP_DATUM_EPOCHS], n2) < 0
-                           || PyDict_SetItem(d, sp_names[SP_LAST_DATUM], dat) < 0
-                           || (n3 != NULL && PyDict_SetItem(v[SP_DATUMS], dat, n3) < 0)))
-        goto fail;
-    rc = 1;
-    goto done;
-fail:
-    rc = -1;
-done:
-    if (rc == 0 && PyErr_Occurred())
-        rc = -1;
-    Py_DECREF(d);
-    Py_XDECREF(n1);
-    Py_XDECREF(n2);
-    Py_XDECREF(n3);
     return rc < 0 ? NULL : Py_NewRef(rc ? Py_True : Py_False);
 }

@@ -6,16 +6,14 @@ with the host stamps beside them (a receiver without a valid date, or a host clo
 wrong, shows as a difference). The datum comes from DTM (NMEA 0183): most receivers never send it,
 and the record must then say so rather than assume WGS 84.
 
-`on_epoch` after the first timed epoch has a C twin, livefix/analysis/_epochcore_site.c, bound as the
-instance's on_epoch when built (the class's on_epoch stays the reference and runs every case the C
-step hands back).
+`on_epoch` stays in Python on both paths: a C step of it measured slower than these few attribute
+writes (bench/RESULTS.md, C core, eighth step).
 """
 
 from __future__ import annotations
 
 from typing import Any
 
-from livefix.analysis.counts import load_core, pick_core
 from livefix.state.epoch import Epoch
 from livefix.timefmt import iso
 
@@ -23,12 +21,7 @@ MAX_DATUMS = 8  # distinct datum pairs listed (a receiver switching datums is ra
 
 
 class SessionSpan:
-    def __init__(self, native: bool | None = None) -> None:
-        """native: on_epoch in C (counts.pick_core: None as LIVEFIX_PURE says)."""
-        core = pick_core(_CORE, native)
-        if core is not None and type(self) is SessionSpan:  # a subclass keeps its own on_epoch
-            bound = core.bind_step("span", self, SessionSpan.on_epoch)  # the C step, else the reference
-            self.on_epoch = bound  # type: ignore[method-assign]
+    def __init__(self) -> None:
         self.reset()
 
     def reset(self) -> None:
@@ -83,5 +76,3 @@ class SessionSpan:
                 "seen": [{"local": k[0], "reference": k[1], "epochs": n} for k, n in sorted(self.datums.items())]},
         }
 
-
-_CORE = load_core("configure_span", SessionSpan, Epoch, MAX_DATUMS)  # on_epoch in C
