@@ -10,17 +10,21 @@ import functools
 import importlib.util
 import sys
 import threading
-from collections.abc import Iterator
+from collections.abc import Callable, Iterable, Iterator
 from pathlib import Path
 from types import ModuleType
+from typing import Any
+
+import pytest
 
 from livefix.decode import Rejected
 from livefix.decode.decoder import Decoder
 from livefix.framing import Framer
 from livefix.items import Chunk
+from livefix.record.reader import RecordingReader
 from livefix.sim import Scenario, SimReceiver
 from livefix.sources import open_source
-from livefix.state.epoch import Epoch
+from livefix.state.epoch import Epoch, Event
 from livefix.state.model import StateModel
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -76,3 +80,61 @@ def sim_epochs(dialect: str, seconds: float) -> Iterator[Epoch]:
                 for ep in sm.on_sentence(msg, mono, 1.7e9 + mono):
                     if type(ep) is Epoch:
                         yield ep
+
+
+def corpus_log_epochs(name: str) -> list[Epoch]:
+    """corpus_epochs of shared/realdata/corpus/<name> (a public log, its source in
+    shared/realdata/SOURCES.md); the calling test skips a log that gives no epoch."""
+    eps = corpus_epochs(CORPUS / name)
+    if not eps:
+        pytest.skip("a log without epochs")
+    return eps
+
+
+def feed_stream(pair: Any, items: Iterator[tuple[str, Any]], n: int) -> int:
+    """n items of a random stream through a twin pair (C side and reference), agreeing after each;
+    how many were epochs."""
+    epochs = 0
+    for _ in range(n):
+        it = next(items)
+        epochs += it[0] == "epoch"
+        assert pair.step(it) is None
+    return epochs
+
+
+def odd_states_agree(make_pair: Callable[[], Any], base: Iterable[Any], cases: Iterable[Any],
+                     apply: Callable[[Any, Any], None], after: Iterable[Any]) -> None:
+    """For each case: a fresh pair fed `base`, the case applied alike to both sides, then `after`,
+    agreeing at every step: states the C code does not take must go to the Python code unchanged."""
+    base, after = list(base), list(after)
+    for case in cases:
+        pair = make_pair()
+        for it in base:
+            assert pair.step(it) is None
+        for side in (pair.c, pair.p):
+            apply(side, case)
+        for i, it in enumerate(after):
+            why = pair.step(it)
+            assert why is None, (case, i, why[:1500])
+
+
+def recording_items(path: Path, chunks: bool = False) -> list[tuple[str, Any]]:
+    """The epochs and the state model's events of a recording, in stream order, as ("epoch", Epoch)
+    and ("event", Event); with chunks, each chunk first as ("chunk", (mono, wall, bytes))."""
+    fr, dec, sm = Framer(), Decoder(), StateModel()
+    out: list[tuple[str, Any]] = []
+    for it in RecordingReader(str(path)).items():
+        if type(it) is not Chunk:
+            continue
+        if chunks:
+            out.append(("chunk", (it.mono, it.wall, len(it.data))))
+        for ln in fr.feed(it.data):
+            msg = dec.decode(ln)
+            if type(msg) is Rejected:
+                continue
+            for x in sm.on_sentence(msg, it.mono, it.wall) or ():
+                if type(x) is Epoch:
+                    out.append(("epoch", x))
+                elif type(x) is Event:
+                    out.append(("event", x))
+    return out

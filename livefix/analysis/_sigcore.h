@@ -35,6 +35,18 @@ SIG_HIDDEN extern double sig_base_tau_s, sig_lost_s, sig_lost_cn0;
 
 SIG_HIDDEN int sig_need_config(void);  /* 0 with RuntimeError when configure() was not called */
 
+/* The weight of a new C/N0 in a satellite's baseline (SignalStats._baseline_sats): 1/(n+1) while the
+ * baseline has fewer than base_min_n samples, then the time since its last update over base_tau_s,
+ * at most 1 (an exponential forgetting by time). td: now; b2: the baseline's last update; bn: samples. */
+static inline double sig_base_weight(long long bn, double td, double b2)
+{
+    if (bn < sig_base_min_n)
+        return 1.0 / (double)(bn + 1);
+    double a = td - b2;
+    a = (a > 0.0 ? a : 0.0) / sig_base_tau_s;
+    return a > 1.0 ? 1.0 : a;
+}
+
 /* the epoch fields step() reads, and the constants of SignalStats.on_epoch / _interference (configure()) */
 enum { E_MONO, E_SATS, E_COUNT };
 SIG_HIDDEN extern PyTypeObject *sig_epoch_type;        /* livefix.state.epoch.Epoch (held) */

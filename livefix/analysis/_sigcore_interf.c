@@ -168,15 +168,7 @@ int sig_interference(PyObject *self, PyObject *ep)
     skip:
         if (!has_c)
             continue;
-        double a;
-        if (bn >= sig_base_min_n) {
-            a = td - b2;
-            a = (a > 0.0 ? a : 0.0) / sig_base_tau_s;
-            if (a > 1.0)
-                a = 1.0;
-        }
-        else
-            a = 1.0 / (double)(bn + 1);
+        double a = sig_base_weight(bn, td, b2);
         plan[np].b = Py_NewRef(b);
         plan[np].b0 = b0 + a * (c - b0);
         plan[np++].bn = bn + 1;

@@ -347,15 +347,7 @@ PyObject *sig_baselines(PyObject *mod, PyObject *args)
             }
             if (r == 0 && has_c) {
                 if (!frozen || bn < sig_base_min_n) {
-                    double a;
-                    if (bn >= sig_base_min_n) {
-                        a = td - b2;
-                        a = (a > 0.0 ? a : 0.0) / sig_base_tau_s;
-                        if (a > 1.0)
-                            a = 1.0;
-                    }
-                    else
-                        a = 1.0 / (double)(bn + 1);
+                    double a = sig_base_weight(bn, td, b2);
                     r = put(b, 0, PyFloat_FromDouble(b0 + a * (c - b0)));
                     if (r == 0)
                         r = put(b, 1, PyLong_FromLongLong(bn + 1));

@@ -20,7 +20,7 @@ from collections import deque
 from types import ModuleType
 
 import pytest
-from twinkit import CORPUS, CORPUS_FILES, bench_module, corpus_epochs, sim_epochs
+from twinkit import CORPUS_FILES, bench_module, corpus_log_epochs, sim_epochs
 
 from livefix.analysis import convergence, position
 from livefix.analysis.config import AnalysisConfig
@@ -84,11 +84,7 @@ def test_configure_refuses_what_it_cannot_use() -> None:
 @pytest.mark.skipif(not CORPUS_FILES, reason="shared/realdata corpus not present (see shared/realdata/SOURCES.md)")
 @pytest.mark.parametrize("name", CORPUS_FILES)
 def test_corpus_logs(name: str) -> None:
-    # shared/realdata/corpus/<name>: a public log, source in shared/realdata/SOURCES.md
-    eps = corpus_epochs(CORPUS / name)
-    if not eps:
-        pytest.skip("a log without epochs")
-    pair = _feed(eps)
+    pair = _feed(corpus_log_epochs(name))  # a public log, source in shared/realdata/SOURCES.md
     assert pair.core.done + pair.core.handed == pair.steps
 
 

@@ -22,21 +22,23 @@ from types import ModuleType
 from typing import Any
 
 import pytest
-from twinkit import CORPUS, CORPUS_FILES, bench_module, corpus_epochs, sim_epochs
+from twinkit import (
+    CORPUS_FILES,
+    bench_module,
+    corpus_log_epochs,
+    feed_stream,
+    odd_states_agree,
+    recording_items,
+    sim_epochs,
+)
 
 from livefix.analysis import integrity, median
 from livefix.analysis.config import AnalysisConfig
 from livefix.analysis.engine import Analyzer
 from livefix.analysis.integrity import StreamIntegrity
 from livefix.analysis.median import BinnedMedian, MedianPosition, _FixMedians
-from livefix.decode import Rejected
-from livefix.decode.decoder import Decoder
-from livefix.framing import Framer
-from livefix.items import Chunk
-from livefix.record.reader import RecordingReader
 from livefix.sim.dialects import DIALECTS
-from livefix.state.epoch import FIX_NAMES, Epoch, Event
-from livefix.state.model import StateModel
+from livefix.state.epoch import FIX_NAMES, Epoch
 
 core = pytest.importorskip("livefix.analysis._epochcore", reason="livefix.analysis._epochcore is not built")
 if not hasattr(core, "median_epoch"):
@@ -128,23 +130,7 @@ def _replay(items: list[tuple[str, Any]], memo: bool = True) -> Any:
 
 
 def _recording_items(path: Path) -> list[tuple[str, Any]]:
-    """The chunks, epochs and state model's events of a recording, in stream order."""
-    fr, dec, sm = Framer(), Decoder(), StateModel()
-    out: list[tuple[str, Any]] = []
-    for it in RecordingReader(str(path)).items():
-        if type(it) is not Chunk:
-            continue
-        out.append(("chunk", (it.mono, it.wall, len(it.data))))
-        for ln in fr.feed(it.data):
-            msg = dec.decode(ln)
-            if type(msg) is Rejected:
-                continue
-            for x in sm.on_sentence(msg, it.mono, it.wall) or ():
-                if type(x) is Epoch:
-                    out.append(("epoch", x))
-                elif type(x) is Event:
-                    out.append(("event", x))
-    return out
+    return recording_items(path, chunks=True)
 
 
 @pytest.mark.parametrize("name", ["rooftop-5min.lfr", "building-5min.lfr", "soak-10min.lfr"])
@@ -157,10 +143,7 @@ def test_recordings(name: str) -> None:
 @pytest.mark.skipif(not CORPUS_FILES, reason="shared/realdata corpus not present (see shared/realdata/SOURCES.md)")
 @pytest.mark.parametrize("name", CORPUS_FILES)
 def test_corpus_logs(name: str) -> None:
-    # shared/realdata/corpus/<name>: a public log, source in shared/realdata/SOURCES.md
-    eps = corpus_epochs(CORPUS / name)
-    if not eps:
-        pytest.skip("a log without epochs")
+    eps = corpus_log_epochs(name)  # a public log, source in shared/realdata/SOURCES.md
     _replay([("epoch", ep) for ep in eps])
 
 
@@ -246,18 +229,14 @@ def test_odd_states_are_left_to_the_python_code() -> None:
     eps = list(sim_epochs("clean", 20.0))
     base = [("epoch", ep) for ep in eps[:70]]
     cases: list[Any] = [("attr", *o) for o in _oddities()] + [("deep", k) for k in range(12)]
-    for case in cases:
-        pair = FUZZ.Pair()
-        for it in base:
-            assert pair.step(it) is None
-        for side in (pair.c, pair.p):
-            if case[0] == "attr":
-                setattr(getattr(side, case[1]), case[2], copy.deepcopy(case[3]))
-            else:
-                _deep_oddities(side.median, case[1])
-        for i, it in enumerate([("epoch", ep) for ep in eps[70:200]]):
-            why = pair.step(it)
-            assert why is None, (case, i, why[:1500])
+
+    def apply(side: Any, case: Any) -> None:
+        if case[0] == "attr":
+            setattr(getattr(side, case[1]), case[2], copy.deepcopy(case[3]))
+        else:
+            _deep_oddities(side.median, case[1])
+
+    odd_states_agree(FUZZ.Pair, base, cases, apply, [("epoch", ep) for ep in eps[70:200]])
 
 
 @pytest.mark.parametrize("seed", [1, 2, 3])
@@ -268,12 +247,7 @@ def test_random_streams(seed: int) -> None:
 
 def test_random_streams_reach_the_c_steps() -> None:
     pair = FUZZ.Pair()
-    gen = FUZZ.stream(random.Random(7), 0.0)
-    epochs = 0
-    for _ in range(3000):
-        it = next(gen)
-        epochs += it[0] == "epoch"
-        assert pair.step(it) is None
+    epochs = feed_stream(pair, FUZZ.stream(random.Random(7), 0.0), 3000)
     assert pair.fast > epochs  # the running-session cases, amid gaps, stalls and lost fixes
 
 
