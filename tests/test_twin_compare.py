@@ -1,6 +1,7 @@
 """The comparisons every C twin's differential relies on (bench/fuzz_exact.py): the quick key must
 tell apart what the slow texts tell apart, and the fallback must keep the texts' own definition.
-Expected values are Python's and IEEE 754's own rules (signed zero, NaN sign bit), not livefix's."""
+Expected values are Python's and IEEE 754's own rules (signed zero, NaN sign bit), not livefix's:
+docs/sources.md#comparing-twin-states-bit-for-bit."""
 
 from __future__ import annotations
 
