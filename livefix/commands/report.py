@@ -55,12 +55,10 @@ def _analyse(src: Source, config: AnalysisConfig, split: bool) -> Snapshot:
 
 def run(args: argparse.Namespace) -> int:
     from livefix.analysis.config import AnalysisConfig
-    from livefix.check.profile import ProfileError, evaluate, load_profile
     from livefix.parallel import AnalysisProcessError, want_split
     from livefix.probe import check_file
     from livefix.refpoint import parse_ref
     from livefix.report.document import ReceiverRun, build_report, to_json
-    from livefix.report.write import write_all
     from livefix.site import from_namespace, overlay
     from livefix.sources import SourceError, open_source
 
@@ -74,10 +72,14 @@ def run(args: argparse.Namespace) -> int:
     try:
         ref = parse_ref(args.ref) if args.ref else None
         site = from_namespace(args)
-        profile = load_profile(args.profile) if args.profile else None
+        profile = None
+        if args.profile:  # imported only when asked for: --json's start-up is timed (bench/bench_native.py)
+            from livefix.check.profile import load_profile
+
+            profile = load_profile(args.profile)
         src = open_source(args.file, speed=None)
         check_file(src)  # no NMEA at all: say what the file holds instead of an empty report
-    except (ProfileError, SourceError, ValueError) as exc:
+    except (SourceError, ValueError) as exc:  # ProfileError is a ValueError
         print(f"livefix report: {term_text(exc)}", file=sys.stderr)
         return 2
     if not src.finite:
@@ -95,7 +97,13 @@ def run(args: argparse.Namespace) -> int:
     if args.json:
         sys.stdout.write(to_json(snap.analysis) + "\n")
         return 0
-    results = evaluate(profile, snap.analysis) if profile is not None else None
+    from livefix.report.write import write_all
+
+    results = None
+    if profile is not None:
+        from livefix.check.profile import evaluate
+
+        results = evaluate(profile, snap.analysis)
     run_ = ReceiverRun(name="rx1", source=args.file, analysis=snap.analysis, results=results,
                        recording=args.file, link=snap.link, link_detail=snap.link_detail,
                        extra={"bytes": snap.counters.bytes})
