@@ -399,15 +399,20 @@ def want_split(jobs: str, path: str, min_bytes: int = SPLIT_MIN_BYTES) -> bool:
 
 
 @contextmanager
-def analyzer_for(config: AnalysisConfig, split: bool) -> Iterator[AnalysisProcess | None]:
-    """The analyzer to hand a Pipeline: None (it builds its own) or a started analysis process,
-    closed when the block ends and killed and reaped if it ends by an error or Ctrl-C."""
-    proxy = AnalysisProcess(config) if split else None
+def analyzer_for(config: AnalysisConfig, split: bool) -> Iterator[Analysis]:
+    """The analyzer to hand a batch run's Pipeline: a started analysis process (split), closed when
+    the block ends and killed and reaped if it ends by an error or Ctrl-C; else an Analyzer in this
+    process that takes the calls in runs (livefix.analysis.batched: same calls, same snapshot)."""
+    if not split:
+        from livefix.analysis.batched import BatchedAnalysis
+        from livefix.analysis.engine import Analyzer
+
+        yield BatchedAnalysis(Analyzer(config))
+        return
+    proxy = AnalysisProcess(config)
     try:
         yield proxy
     except BaseException:
-        if proxy is not None:
-            proxy.kill()
+        proxy.kill()
         raise
-    if proxy is not None:
-        proxy.close()
+    proxy.close()

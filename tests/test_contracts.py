@@ -12,6 +12,7 @@ from pathlib import Path
 
 import pytest
 
+from livefix.analysis.batched import BatchedAnalysis
 from livefix.analysis.engine import Analyzer
 from livefix.contracts import Analysis, ItemSink, Paced, Probed, Seekable, Source, SteerableAnalysis
 from livefix.parallel import AnalysisProcess
@@ -77,10 +78,15 @@ def test_analyzer_and_its_process_stand_in_are_analyses() -> None:
         proc.close()
     assert Pipeline().analyzer.__class__ is Analyzer  # the default is the real one
     Pipeline().reset_analysis()  # and it can be steered
-    assert a.internal_errors == 0
+    # the batch runs' in-process wrapper takes the same calls and can be steered like what it wraps
+    b = BatchedAnalysis(Analyzer())
+    assert isinstance(b, Analysis) and isinstance(b, SteerableAnalysis)
+    Pipeline(analyzer=b).reset_analysis()
+    assert a.internal_errors == 0 and b.inner.internal_errors == 0
 
 
 STATIC = """
+from livefix.analysis.batched import BatchedAnalysis
 from livefix.analysis.engine import Analyzer
 from livefix.contracts import Analysis, ItemSink, Paced, Probed, Seekable, Source, SteerableAnalysis
 from livefix.parallel import AnalysisProcess
@@ -93,14 +99,14 @@ from livefix.sources.tcp import TcpSource
 
 
 def check(f: FileSource, m: SimSource, i: StdinSource, t: TcpSource, s: SerialSource, r: Recorder,
-          a: Analyzer, p: AnalysisProcess) -> None:
+          a: Analyzer, p: AnalysisProcess, b: BatchedAnalysis) -> None:
     sources: list[Source] = [f, m, i, t, s]
     paced: list[Paced] = [f, m]
     seekable: Seekable = f
     probed: list[Probed] = [t, s]
     sink: ItemSink = r
-    analyses: list[Analysis] = [a, p]
-    steerable: SteerableAnalysis = a
+    analyses: list[Analysis] = [a, p, b]
+    steerable: list[SteerableAnalysis] = [a, b]
     print(sources, paced, seekable, probed, sink, analyses, steerable)
 """
 
