@@ -96,7 +96,7 @@ C_CORES = {
          "livefix/analysis/_epochcore_pos.c", "livefix/analysis/_epochcore_motion.c",
          "livefix/analysis/_epochcore_fix.c", "livefix/analysis/_epochcore_fixplan.c",
          "livefix/analysis/_epochcore_site.c", "livefix/analysis/_epochcore_median.c",
-         "livefix/analysis/_epochcore_bind.c"],
+         "livefix/analysis/_epochcore_bind.c", "livefix/analysis/_epochcore_track.c"],
         ["livefix/analysis/_epochcore.h", "livefix/analysis/_epochcore_pos.h", "livefix/analysis/_epochcore_fix.h",
          "livefix/_corekit.h"],
     ),

@@ -28,6 +28,7 @@ from fuzz_signal import diff as signal_step_diff
 from fuzz_site import diff as site_diff
 from fuzz_sky import load_sky_core, sky_diff
 from fuzz_state import load_state_core, state_diff
+from fuzz_track import diff as track_diff
 from fuzz_used import load_used_core
 from fuzz_used import used_diff as tracker_diff
 
@@ -77,6 +78,7 @@ LATER = (
     ("decoder front", "lines", "livefix.decode.decoder", "_native", _plain(front_diff), 0.5, 100_000),
     ("fix step", "items", "livefix.analysis.fixes", "_epochcore", _plain(fix_diff), 0.05, 10_000),
     ("position step", "epochs", "livefix.analysis.position", "_epochcore", _plain(pos_diff), 0.025, 5_000),
+    ("track settle", "batches", "livefix.analysis.track", "_epochcore", _handed(track_diff), 0.005, 2_000),
     ("site steps", "items", "livefix.analysis.median", "_epochcore", _plain(site_diff), 0.05, 5_000),
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),

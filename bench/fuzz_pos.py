@@ -97,7 +97,10 @@ def state(ps: Any) -> Exact:
     """The whole per-epoch state of a PositionStats and its stages, type-exact and bit-exact."""
     m, c, clk = ps.motion, ps.conv, ps.clock
     mo = [getattr(m, k) for k in type(m).__slots__ if k not in ("cfg", "_full", "_half")]
-    tracks = {k: [t._pend, t._mom.n, t._mom.nu, t._mom.m, t._mom.c] for k, t in ps.tracks.items()}
+    tracks = {k: [t._pend, t._mom.n, t._mom.nu, t._mom.m, t._mom.c, list(t._hist_r.bins.items()), t._hist_r.n,
+                  t._hist_v.n, t._hist_v.zeros, t._blocks._acc, t._blocks._k, t._blocks._ku, t._allan._acc,
+                  t._allan._k, t._allan.factor, t._ring.total, len(t._ring._pend)]
+              for k, t in ps.tracks.items()}  # the accumulators a full batch settles (in C: _epochcore_track.c)
     head = c.head[: c._done].tobytes().hex() if c._done < 600 else c.head[c._done - 300: c._done].tobytes().hex()
     return Exact([ps._epochs, ps.segments, ps._best_n, ps._was_moving, ps._user_ref, ps._user_source, ps.ref,
                   ps.ref_source, ps.ref_enu, ps.ref_fix, ps._last, ps._site_en, ps._fixed_now, ps.no_height,

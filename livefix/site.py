@@ -13,7 +13,6 @@ from __future__ import annotations
 
 import argparse
 import math
-import tomllib
 from collections.abc import Mapping
 from dataclasses import dataclass, field, replace
 from pathlib import Path
@@ -168,6 +167,8 @@ def from_mapping(data: Mapping[str, Any], where: str = "site") -> SiteInfo:
 
 def load_site(path: str | Path) -> SiteInfo:
     """Read a site TOML file (keys of FIELDS at the top level, or under a [site] table)."""
+    import tomllib  # here: a report without a site file does not pay for the parser at start-up
+
     p = Path(path)
     try:
         data = tomllib.loads(p.read_text(encoding="utf-8"))

@@ -186,6 +186,11 @@ static PyMethodDef methods[] = {
     {"median_epoch", (PyCFunction)(void (*)(void))ep_median_epoch, METH_FASTCALL,
      "median_epoch(median, ep) -> bool\n\nMedianPosition.on_epoch (with the batch settle) in place; False (nothing\n"
      "changed) when the Python code must do it."},
+    {"configure_track", ep_configure_track, METH_VARARGS,
+     "configure_track(track, moments3, log_histogram, block_means, pair_history, ring, hypot, warmup, flush, step):\n"
+     "the types and constants of livefix.analysis.track and livefix.analysis.streaming."},
+    {"track_settle", ep_track_settle_py, METH_O,
+     "track_settle(track) -> bool\n\nTrack._settle in place; False (nothing changed) when the Python code must do it."},
     {"bind_step", ep_bind_step, METH_VARARGS,
      "bind_step(kind, stage, reference) -> callable\n\nkind 'integrity' or 'median': on_epoch(ep) for the\n"
      "stage, running its C step and, when the step hands back, reference(stage, ep)."},

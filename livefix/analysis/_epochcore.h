@@ -72,6 +72,11 @@ EP_HIDDEN PyObject *ep_configure_integrity(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_integrity_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 EP_HIDDEN PyObject *ep_configure_median(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_median_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
+/* Track._settle: _epochcore_track.c (its configuration lives there too); ep_track_settle gives 1 done,
+ * 0 handed back with nothing changed, -1 with an error set */
+EP_HIDDEN PyObject *ep_configure_track(PyObject *mod, PyObject *args);
+EP_HIDDEN PyObject *ep_track_settle_py(PyObject *mod, PyObject *trk);
+EP_HIDDEN int ep_track_settle(PyObject *trk);
 /* those two bound to their stage as its on_epoch, and their counts: _epochcore_bind.c */
 EP_HIDDEN PyObject *ep_bind_step(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_site_counts(PyObject *mod, PyObject *args);

@@ -315,7 +315,14 @@ PyObject *ep_position_epoch(PyObject *mod, PyObject *const *a, Py_ssize_t nargs)
     Py_XDECREF(row);
     Py_ssize_t len = row == NULL || bad < 0 ? -1 : PyObject_Size(pend);
     Py_DECREF(pend);
-    if (len < 0 || (len >= ps_track_batch && call_void(trk, ps_name[N_SETTLE]) < 0))
+    if (len >= ps_track_batch) { /* Track._settle: in C (_epochcore_track.c) unless it hands back */
+        int st = ep_track_settle(trk);
+        if (st == 0)
+            st = call_void(trk, ps_name[N_SETTLE]);
+        if (st < 0)
+            goto done;
+    }
+    if (len < 0)
         goto done;
     /* the automatic reference: the reference's own methods when its first epochs are complete */
     x = slot(self, ps_pos[P_AUTO]);

@@ -12,7 +12,8 @@ from typing import Any
 
 import numpy as np
 
-from livefix.analysis import allan, drift, scatter
+from livefix.analysis import allan, drift, scatter, streaming
+from livefix.analysis.counts import load_core
 from livefix.analysis.streaming import LogHistogram, PairHistory, Ring, num
 
 RING_CAP = 8192  # recent epochs kept exactly (window percentiles, honesty, samples)
@@ -89,7 +90,9 @@ class Track:
 
     Rows wait in a short list and go into every accumulator in one pass per BATCH rows (a call per
     accumulator per row is slow); each accumulator still takes them one by one in arrival order, so
-    every sum is the same. Every reader (the members below are properties) settles them first."""
+    every sum is the same. Every reader (the members below are properties) settles them first.
+    _settle is the reference; the C position step settles a full batch with its twin (track_settle in
+    livefix/analysis/_epochcore_track.c, configured below)."""
 
     __slots__ = ("_mom", "_hist_r", "_hist_v", "_ring", "_blocks", "_allan", "_pend")  # _pend, _mom: read by C
 
@@ -251,3 +254,10 @@ class Track:
         med_h = float(np.median(hd)) if hd.size else 0.0
         out["ure_m"] = num(math.hypot(sd[0], sd[1]) / med_h, 3) if med_h > 0 else None
         return out
+
+
+# the C twin of Track._settle: the types it checks and the constants it uses (bench/fuzz_epochcore.py
+# configures a sanitizer build with the same tuple)
+_CONFIGURE = (Track, Moments3, LogHistogram, drift.BlockMeans, PairHistory, Ring, math.hypot, WARMUP,
+              streaming.FLUSH, streaming._LH_STEP)
+_CORE = load_core("configure_track", *_CONFIGURE)

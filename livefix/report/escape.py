@@ -7,7 +7,6 @@ Control characters are never passed on: they become visible `\\xNN` text.
 
 from __future__ import annotations
 
-import html
 import re
 
 # C0 controls except TAB/LF, DEL, C1 controls, and bidi/format overrides that can hide text.
@@ -42,6 +41,8 @@ def term_text(value: object, *, keep_newlines: bool = False) -> str:
 
 def html_text(value: object) -> str:
     """Text for HTML element content or a quoted attribute."""
+    import html  # here: the JSON and terminal paths never escape HTML
+
     return html.escape(term_text(value), quote=True)
 
 

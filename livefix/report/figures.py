@@ -9,7 +9,6 @@ and the documents cannot disagree. Schema: docs/report.schema.json.
 
 from __future__ import annotations
 
-import hashlib
 import math
 from pathlib import Path
 from typing import Any
@@ -30,6 +29,8 @@ def file_sha256(path: str | None) -> tuple[str | None, int | None]:
     try:
         if not p.is_file():
             return None, None
+        import hashlib  # here: `report --json` never hashes, and start-up is timed
+
         h, size = hashlib.sha256(), 0
         with p.open("rb") as f:
             while block := f.read(HASH_BLOCK):
