@@ -40,12 +40,17 @@ static inline int plain_word(uint64_t w)
 #undef HASZERO
 }
 
-static PyObject *native_split_block(PyObject *self, PyObject *args)
+PyObject *nat_split_block(PyObject *self, PyObject *args)
 {
     (void)self;
     PyObject *data;
     Py_ssize_t max_len;
     if (!PyArg_ParseTuple(args, "On", &data, &max_len)) return NULL;
+    return nat_split(data, max_len);
+}
+
+PyObject *nat_split(PyObject *data, Py_ssize_t max_len)
+{
     if (!PyBytes_CheckExact(data)) Py_RETURN_NONE;
     const unsigned char *s = (const unsigned char *)PyBytes_AS_STRING(data);
     Py_ssize_t n = PyBytes_GET_SIZE(data), i = 1, start = 0, lines = 0;
@@ -109,7 +114,7 @@ PyDoc_STRVAR(make_doc,
 
 static PyMethodDef METHODS[] = {
     {"decode", nat_decode, METH_O, decode_doc},
-    {"split_block", native_split_block, METH_VARARGS, split_doc},
+    {"split_block", nat_split_block, METH_VARARGS, split_doc},
     {"configure", nat_configure, METH_VARARGS, configure_doc},
     {"make", (PyCFunction)(void (*)(void))nat_make, METH_FASTCALL, make_doc},
     {"field_names", nat_field_names, METH_O, "The field names this core gives a fast type, in order (for tests)."},

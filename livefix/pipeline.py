@@ -201,8 +201,9 @@ class Pipeline:
 
 
 def _attach_pump(p: Pipeline, native: bool | None) -> None:
-    """Rebind p._lines to the C pump (see Pipeline.__init__'s native); subclasses keep their own."""
-    from livefix.framing import built_core
+    """Rebind p._lines and p.feed to the C pump (see Pipeline.__init__'s native); subclasses keep
+    their own."""
+    from livefix.framing import Framer, built_core
     from livefix.state.model import StateModel
 
     kind = getattr(built_core(), "LinePump", None)
@@ -211,8 +212,10 @@ def _attach_pump(p: Pipeline, native: bool | None) -> None:
     elif native and kind is None:
         raise RuntimeError("the C core livefix._native (LinePump) is not built")
     if native and kind is not None and type(p) is Pipeline:
-        helpers = (Pipeline, Pipeline._pump_events, StateModel.drain_events, Rejected_)
-        vars(p)["_lines"] = kind(p, helpers).lines  # an instance attribute over the method
+        helpers = (Pipeline, Pipeline._pump_events, StateModel.drain_events, Rejected_, Pipeline.feed, Chunk,
+                   StateModel.on_chunk, Framer, Framer.feed)
+        pump = kind(p, helpers)
+        vars(p).update(_lines=pump.lines, feed=pump.feed)  # instance attributes over the methods
 
 
 def run_items(items, config: AnalysisConfig | None = None, source: str = "") -> Pipeline:  # noqa: ANN001

@@ -1,4 +1,5 @@
-"""The C pump (livefix._native.LinePump, Pipeline._lines' twin) against the Python loop: two
+"""The C pump (livefix._native.LinePump, the twin of Pipeline._lines and Pipeline.feed) against the
+Python code: two
 pipelines fed the same items must make the same calls on their analyses, with the same arguments
 in the same order (a recording analysis logs each one), and end with the same snapshot and the same
 list of recent refusals. Exceptions must leave both at the same point.
@@ -84,6 +85,9 @@ def run_both(items: list[Any], front: bool | None = None) -> tuple[Pipeline, Pip
     for k, it in enumerate(items):
         pc.feed(it)
         pp.feed(it)
+        # the stream time each part keeps (the model's is what its events and sky() read)
+        assert (pc._mono, pc._wall, pc.state._mono, pc.state._wall) == (pp._mono, pp._wall, pp.state._mono,
+                                                                        pp.state._wall), f"item {k}"
         if k % 50 == 0:  # step by step: the same calls so far
             assert pc.analyzer.log == pp.analyzer.log, f"item {k}"
             assert pc._rejects == pp._rejects, f"item {k}"
@@ -104,12 +108,12 @@ def test_the_switch(monkeypatch: pytest.MonkeyPatch) -> None:
     assert "_lines" in vars(Pipeline())
     monkeypatch.setenv("LIVEFIX_PURE", "1")
     assert "_lines" not in vars(Pipeline())
-    assert "_lines" in vars(Pipeline(native=True))
+    assert "_lines" in vars(Pipeline(native=True)) and "feed" in vars(Pipeline(native=True))
 
     class Own(Pipeline):
         pass
 
-    assert "_lines" not in vars(Own(native=True))  # a subclass keeps the Python loop
+    assert "_lines" not in vars(Own(native=True)) and "feed" not in vars(Own(native=True))  # its own code
 
 
 @pytest.mark.parametrize("name", sorted(p.name for p in (ROOT / "recordings").glob("*.lfr")))
@@ -178,7 +182,7 @@ def test_an_instance_drain_events_is_called() -> None:
     assert calls["c"] == calls["p"] > 100 and pc.analyzer.log == pp.analyzer.log
 
 
-@pytest.mark.parametrize("where", [("on_epoch", 40), ("on_rejected", 3), ("on_event", 2)])
+@pytest.mark.parametrize("where", [("on_epoch", 40), ("on_rejected", 3), ("on_event", 2), ("on_chunk", 30)])
 def test_exceptions_leave_both_at_the_same_point(where: tuple[str, int]) -> None:
     pc, pp = pair(fail_on=where)
     items = sim_items("bad-checksum-times", 10.0)
@@ -204,3 +208,49 @@ def test_swapped_analyzer_between_chunks() -> None:
         pc.feed(it)
         pp.feed(it)
     assert pc.analyzer.log == pp.analyzer.log and len(pc.analyzer.log) > 50
+
+
+@pytest.mark.parametrize("seed", [3, 4])
+def test_chunks_cut_anywhere(seed: int) -> None:
+    """The same bytes cut at random places (lines across chunks, chunks without CRLF at the end, empty
+    chunks): the framer's general path, in the C feed as in Pipeline.feed."""
+    rng = random.Random(seed)
+    data = b"".join(c.data for c in sim_items("binary", 15.0, seed))
+    items, k, t = [], 0, 10.0
+    while k < len(data):
+        n = rng.choice([0, 1, 7, 80, 300, 1200, 5000])
+        items.append(Chunk(t, 1.7e9 + t, data[k:k + n]))
+        k, t = k + n, t + 0.05
+    pc, pp = run_both(items)
+    assert pc.framer.counters == pp.framer.counters and pc.framer.counters.binary_frames > 0
+
+
+def test_a_replaced_model_on_chunk_framer_feed_or_split_is_called() -> None:
+    """Parts not exactly the reference's are called, not stood in for: an on_chunk on the model
+    instance, a feed on the framer instance, a framer without the C split (native=False)."""
+    pc, pp = pair()
+    calls: dict[str, int] = {}
+    for name, p in (("c", pc), ("p", pp)):
+        real_chunk, real_feed = p.state.on_chunk, p.framer.feed
+
+        def on_chunk(mono: float, wall: float, name: str = name, real: Any = real_chunk) -> None:
+            calls[name + "chunk"] = calls.get(name + "chunk", 0) + 1
+            real(mono, wall)
+
+        def feed(data: bytes, name: str = name, real: Any = real_feed) -> list[bytes]:
+            calls[name + "feed"] = calls.get(name + "feed", 0) + 1
+            return real(data)
+
+        p.state.on_chunk, p.framer.feed = on_chunk, feed
+    items = sim_items("clean", 10.0)
+    for it in items[:50]:
+        pc.feed(it)
+        pp.feed(it)
+    from livefix.framing import Framer
+
+    pc.framer, pp.framer = Framer(native=False), Framer(native=False)  # the Python split
+    for it in items[50:]:
+        pc.feed(it)
+        pp.feed(it)
+    assert calls["cchunk"] == calls["pchunk"] == len(items) and calls["cfeed"] == calls["pfeed"] == 50
+    assert pc.analyzer.log == pp.analyzer.log and figures(pc) == figures(pp)
