@@ -3,7 +3,7 @@
 Why: in one process the decoding front and the statistics alternate every epoch, and each evicts the
 other's code and data from the CPU caches. Recording the calls and playing a run of them into the
 analyzer at once lets each side work warm: a one-process report of 60 minutes at 10 Hz took about
-15 % less CPU (bench/RESULTS.md, tenth step). The numbers cannot change: the analyzer gets the same
+10 % less CPU, start-up included (bench/RESULTS.md, tenth step). The numbers cannot change: the analyzer gets the same
 calls with the same arguments in the same order, only later, and every reader (snapshot, the steering
 calls) plays what is waiting first. It is what livefix.parallel's proxy does, without the second
 process. Batch runs use it (livefix.parallel.analyzer_for); the live monitor feeds its Analyzer
