@@ -78,7 +78,7 @@ LATER = (
     ("decoder front", "lines", "livefix.decode.decoder", "_native", _plain(front_diff), 0.5, 100_000),
     ("fix step", "items", "livefix.analysis.fixes", "_epochcore", _plain(fix_diff), 0.05, 10_000),
     ("position step", "epochs", "livefix.analysis.position", "_epochcore", _plain(pos_diff), 0.025, 5_000),
-    ("track settle", "batches", "livefix.analysis.track", "_epochcore", _handed(track_diff), 0.005, 2_000),
+    ("track settle", "batches", "livefix.analysis.track", "_epochcore", _handed(track_diff), 0.01, 2_000),
     ("site steps", "items", "livefix.analysis.median", "_epochcore", _plain(site_diff), 0.05, 5_000),
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
