@@ -8,7 +8,9 @@ reported; the reports show the count ("livefix internal errors: N — please rep
 
 from __future__ import annotations
 
-LOGGER = "livefix"  # the logging module is imported at the first internal error, not at start-up
+import logging
+
+LOG = logging.getLogger("livefix")
 # Tracebacks logged in full: the first FULL_LOGS of a counter, then every EVERY-th, so that a bug
 # hit on every line of a week-long soak cannot fill the disk (the count itself stays exact).
 FULL_LOGS = 20
@@ -18,9 +20,7 @@ EVERY = 1000
 def log_internal(count: int, where: str, exc: BaseException) -> None:
     """Log the count-th internal error of one counter, raised in `where`, with its traceback."""
     if count <= FULL_LOGS or count % EVERY == 0:
-        import logging
-
-        logging.getLogger(LOGGER).error("livefix internal error #%d in %s: %s: %s (please report)", count, where,
+        LOG.error("livefix internal error #%d in %s: %s: %s (please report)", count, where,
                   type(exc).__name__, exc, exc_info=exc)
 
 

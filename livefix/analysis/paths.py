@@ -14,6 +14,7 @@ from __future__ import annotations
 import math
 import operator
 import re
+import statistics
 from collections.abc import Callable
 from typing import Any
 
@@ -21,18 +22,8 @@ OPS: dict[str, Callable[[Any, Any], bool]] = {
     "<=": operator.le, "<": operator.lt, ">=": operator.ge, ">": operator.gt, "==": operator.eq,
 }
 _FILTER_OPS: dict[str, Callable[[Any, Any], bool]] = {**OPS, "!=": operator.ne}
-
-
-def _fmean(values: list[float]) -> float:
-    """statistics.fmean, imported when a profile first asks for a mean (statistics pulls in
-    random, fractions and decimal: a few ms of every start-up otherwise)."""
-    import statistics
-
-    return statistics.fmean(values)
-
-
 REDUCERS: dict[str, Callable[[list[float]], float]] = {
-    "min": min, "max": max, "mean": _fmean, "sum": math.fsum,
+    "min": min, "max": max, "mean": statistics.fmean, "sum": math.fsum,
     "count": lambda v: float(len(v)), "first": lambda v: v[0], "last": lambda v: v[-1],
 }
 _SEGMENT = re.compile(r"([A-Za-z_][A-Za-z0-9_]*)(?:\[([^\]]*)\])?(?:\.|$)")
