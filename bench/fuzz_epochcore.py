@@ -181,7 +181,19 @@ def load_epoch_core(path: str) -> ModuleType:
 
     import livefix.analysis
     from livefix import geodesy
-    from livefix.analysis import counts, fixes, geo, integrity, jumps, median, position, sky, track, trend
+    from livefix.analysis import (
+        arcs,
+        counts,
+        fixes,
+        geo,
+        integrity,
+        jumps,
+        median,
+        position,
+        sky,
+        track,
+        trend,
+    )
 
     mod = load_ext("livefix.analysis._epochcore", path)
     livefix.analysis._epochcore = mod  # type: ignore[attr-defined]
@@ -202,8 +214,9 @@ def load_epoch_core(path: str) -> ModuleType:
                                     median.BinnedMedian, median.Epoch, median.FIX_NAMES, "none", median.BATCH,
                                     median.MAX_BINS)
     track._CORE = counts.load_core("configure_track", *track._CONFIGURE)
+    arcs._CORE = counts.load_core("configure_arcs", *arcs._CONFIGURE)
     if not (counts._CORE is trend._CORE is sky._CORE is geo._CORE is jumps._CORE is position._CORE is fixes._CORE
-            is integrity._CORE is median._CORE is track._CORE is mod):
+            is integrity._CORE is median._CORE is track._CORE is arcs._CORE is mod):
         raise RuntimeError(f"{path}: not a usable build of livefix.analysis._epochcore")
     return mod
 

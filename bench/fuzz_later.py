@@ -12,6 +12,7 @@ import sys
 import time
 from collections.abc import Callable
 
+from fuzz_arcs import diff as arcs_diff
 from fuzz_clock import clock_diff, load_clock_core, parts_diff
 from fuzz_dop import dop_diff, load_dop_core, used_diff
 from fuzz_epochcore import diff as epochcore_diff
@@ -79,6 +80,7 @@ LATER = (
     ("fix step", "items", "livefix.analysis.fixes", "_epochcore", _plain(fix_diff), 0.05, 10_000),
     ("position step", "epochs", "livefix.analysis.position", "_epochcore", _plain(pos_diff), 0.025, 5_000),
     ("track settle", "batches", "livefix.analysis.track", "_epochcore", _handed(track_diff), 0.01, 2_000),
+    ("arc sampler", "epochs", "livefix.analysis.arcs", "_epochcore", _handed(arcs_diff), 0.05, 10_000),
     ("site steps", "items", "livefix.analysis.median", "_epochcore", _plain(site_diff), 0.05, 5_000),
     ("UTC clock", "calls", "livefix.state.clock", "_clockcore", _plain(clock_diff), 0.5, 100_000),
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),

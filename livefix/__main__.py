@@ -1,5 +1,5 @@
 """`python -m livefix` runs the command line."""
 
-from livefix.cli import main
+from livefix.cli import entry
 
-raise SystemExit(main())
+raise SystemExit(entry())

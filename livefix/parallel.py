@@ -153,10 +153,10 @@ def _write_all(fd: int, data: bytes) -> None:
 def serve(rfd: int, wfd: int) -> int:
     """The analysis process: config, then batches and snapshot requests until stop or end of input."""
     signal.signal(signal.SIGINT, signal.SIG_IGN)  # the front handles Ctrl-C and stops us
-    from livefix.analysis.engine import Analyzer
     from livefix.batchgc import BATCH_GC_THRESHOLD
 
-    gc.set_threshold(*BATCH_GC_THRESHOLD)  # this process only ever runs a batch (livefix.batchgc)
+    gc.set_threshold(*BATCH_GC_THRESHOLD)  # this process only ever runs a batch (livefix.batchgc), imports too
+    from livefix.analysis.engine import Analyzer
 
     replay: Replayer | None = None
     try:

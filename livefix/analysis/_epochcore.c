@@ -191,6 +191,12 @@ static PyMethodDef methods[] = {
      "the types and constants of livefix.analysis.track and livefix.analysis.streaming."},
     {"track_settle", ep_track_settle_py, METH_O,
      "track_settle(track) -> bool\n\nTrack._settle in place; False (nothing changed) when the Python code must do it."},
+    {"configure_arcs", ep_configure_arcs, METH_VARARGS,
+     "configure_arcs(collector, track, config, epoch, satobs, array, append, wavelength, max_samples, edge_deg):\n"
+     "the types, functions and constants of livefix.analysis.arcs."},
+    {"arc_sample", (PyCFunction)(void (*)(void))ep_arc_sample, METH_FASTCALL,
+     "arc_sample(collector, ep) -> bool | None\n\nArcCollector.on_epoch in place; None (nothing changed) when the\n"
+     "Python code must do it."},
     {"bind_step", ep_bind_step, METH_VARARGS,
      "bind_step(kind, stage, reference) -> callable\n\nkind 'integrity' or 'median': on_epoch(ep) for the\n"
      "stage, running its C step and, when the step hands back, reference(stage, ep)."},

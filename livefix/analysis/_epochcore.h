@@ -77,6 +77,9 @@ EP_HIDDEN PyObject *ep_median_epoch(PyObject *mod, PyObject *const *a, Py_ssize_
 EP_HIDDEN PyObject *ep_configure_track(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_track_settle_py(PyObject *mod, PyObject *trk);
 EP_HIDDEN int ep_track_settle(PyObject *trk);
+/* ArcCollector.on_epoch: _epochcore_arcs.c (its configuration lives there too) */
+EP_HIDDEN PyObject *ep_configure_arcs(PyObject *mod, PyObject *args);
+EP_HIDDEN PyObject *ep_arc_sample(PyObject *mod, PyObject *const *a, Py_ssize_t nargs);
 /* those two bound to their stage as its on_epoch, and their counts: _epochcore_bind.c */
 EP_HIDDEN PyObject *ep_bind_step(PyObject *mod, PyObject *args);
 EP_HIDDEN PyObject *ep_site_counts(PyObject *mod, PyObject *args);

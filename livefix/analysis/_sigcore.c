@@ -19,7 +19,8 @@
  *
  * step() is SignalStats.on_epoch in C (_sigcore_step.c, _sigcore_interf.c): the same attribute reads
  * and stores, calling the Python methods (_accumulate, _accumulate_sats, _interference) for the parts
- * it does not take, and handing the whole epoch back (False, nothing changed) on odd epochs.
+ * it does not take, and handing the whole epoch back (False, nothing changed) on odd epochs;
+ * bind_step() binds it to a stage as the Analyzer's on_epoch.
  *
  * The module's files: this one (the module and configure()), _sigcore_loops.c (the two loops),
  * _sigcore_step.c and _sigcore_interf.c (step()) and their private header _sigcore.h.
@@ -130,6 +131,43 @@ int sig_need_config(void)
     return sig_configured;
 }
 
+/* bind_step(): step() bound to one SignalStats as the Analyzer's on_epoch, so the common epoch costs no
+ * Python frame; when step() hands back it runs the reference (SignalStats.epoch_reference) on the
+ * stage. Its __qualname__ is "SignalStats.on_epoch", as the Analyzer's error notes name the stage. */
+static PyObject *bound_ref; /* the reference function, set once by bind_step */
+
+static PyObject *bound_step(PyObject *stage, PyObject *ep)
+{
+    PyObject *a[2] = {stage, ep}, *r = sig_step(NULL, a, 2);
+    if (r == NULL)
+        return NULL;
+    int done = r == Py_True;
+    Py_DECREF(r);
+    if (done)
+        Py_RETURN_NONE;
+    return PyObject_Vectorcall(bound_ref, a, 2, NULL);
+}
+
+static PyMethodDef BOUND = {"on_epoch", bound_step, METH_O,
+                            "on_epoch(ep): step(), or the reference when it hands back (livefix.analysis._sigcore)"};
+
+static PyObject *bind_step(PyObject *Py_UNUSED(mod), PyObject *args)
+{
+    PyObject *stage, *ref;
+    if (!PyArg_ParseTuple(args, "OO:bind_step", &stage, &ref))
+        return NULL;
+    if (!PyCallable_Check(ref)) {
+        PyErr_SetString(PyExc_TypeError, "bind_step: the reference must be callable");
+        return NULL;
+    }
+    if (bound_ref != NULL && bound_ref != ref) {
+        PyErr_SetString(PyExc_ValueError, "bind_step: another reference than before");
+        return NULL;
+    }
+    Py_XSETREF(bound_ref, Py_NewRef(ref));
+    return PyCFunction_NewEx(&BOUND, stage, NULL);
+}
+
 PyDoc_STRVAR(accumulate_doc,
 "accumulate(sats, cs, by_sys, bands, cells, mask) -> int\n\n"
 "SignalStats._accumulate_sats over sats (a list) in place; returns how many satellites were done\n"
@@ -153,6 +191,9 @@ static PyMethodDef methods[] = {
     {"accumulate", sig_accumulate, METH_VARARGS, accumulate_doc},
     {"baselines", sig_baselines, METH_VARARGS, baselines_doc},
     {"step", (PyCFunction)(void (*)(void))sig_step, METH_FASTCALL, step_doc},
+    {"bind_step", bind_step, METH_VARARGS,
+     "bind_step(stats, reference) -> callable\n\non_epoch(ep) for stats: step(), and reference(stats, ep) when it\n"
+     "hands back."},
     {NULL, NULL, 0, NULL},
 };
 

@@ -18,8 +18,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from livefix.analysis.counts import load_core, pick_core
 from livefix.analysis.reflection import ReflectionConfig, wavelength
-from livefix.state.epoch import Epoch
+from livefix.state.epoch import Epoch, SatObs
 
 MAX_SAMPLES = 7200  # samples in one arc in progress; a longer arc is closed and a new one started
 EDGE_DEG = 1.0  # samples kept this far outside the window, so the smoothing spans its edges
@@ -72,8 +73,10 @@ class ArcCollector:
     """Feed epochs; finished arcs collect in `done`, which the owner empties (no callback: a bound
     method of the owner kept here would make a reference cycle, see DEVELOPERS.md)."""
 
-    def __init__(self, cfg: ReflectionConfig) -> None:
+    def __init__(self, cfg: ReflectionConfig, native: bool | None = None) -> None:
+        """native: on_epoch in C (counts.pick_core: None as LIVEFIX_PURE says)."""
         self.cfg = cfg
+        self._core = pick_core(_CORE, native)
         self.reset()
 
     def reset(self) -> None:
@@ -92,6 +95,11 @@ class ArcCollector:
 
     def on_epoch(self, ep: Epoch) -> bool:
         """Take this epoch's satellites as one sample (at most one per sample_s); True if taken."""
+        core = self._core
+        if core is not None:
+            taken = core.arc_sample(self, ep)  # None: handed back unchanged, the code below decides
+            if taken is not None:
+                return taken
         cfg = self.cfg
         t = ep.mono
         if 0 <= t - self._t < cfg.sample_s:
@@ -162,3 +170,10 @@ def split_monotonic(t: np.ndarray, el: np.ndarray, az: np.ndarray, cn0: np.ndarr
          int(np.argmin(els)) if min(els[0], els[-1]) - bottom > TURN_DEG else -1)
     cuts = [(0, t.size)] if k <= 0 else [(0, k + 1), (k, t.size)]
     return [(t[a:b], els[a:b], azs[a:b], cn0[a:b]) for a, b in cuts if b - a >= 2]
+
+
+# the C twin of ArcCollector.on_epoch: the types, functions and constants it uses
+# (livefix/analysis/_epochcore_arcs.c; bench/fuzz_epochcore.py configures a sanitizer build the same way)
+_CONFIGURE = (ArcCollector, _Track, ReflectionConfig, Epoch, SatObs, array, array.append, wavelength, MAX_SAMPLES,
+              EDGE_DEG)
+_CORE = load_core("configure_arcs", *_CONFIGURE)

@@ -11,6 +11,7 @@ given for at least one signal; "used" is the epoch's used set (GSA lists, livefi
 from __future__ import annotations
 
 import importlib
+from collections.abc import Callable
 from types import ModuleType
 from typing import Any
 
@@ -40,6 +41,16 @@ def pick_core(core: ModuleType | None, native: bool | None) -> ModuleType | None
     """native None: core unless LIVEFIX_PURE is "1"; True: core, or RuntimeError when it is not built
     (tests); False: None, the Python code."""
     return corepick.pick_core(core, native, "the C core livefix.analysis._epochcore is not built")
+
+
+def bound_on_epoch(core: ModuleType | None, kind: str, stage: Any, cls: type,
+                   reference: Callable[[Any, Any], None]) -> Callable[[Any], None]:
+    """stage.on_epoch as the Analyzer calls it: the C step of `kind` bound to the stage, running
+    reference(stage, ep) when it hands back (livefix/analysis/_epochcore_bind.c: no Python frame for
+    the common epoch); on_epoch itself without the core or for a subclass (which keeps its own)."""
+    if core is None or type(stage) is not cls:
+        return stage.on_epoch
+    return core.bind_step(kind, stage, reference)
 
 
 def _kth(hist: dict[int, int], k: int) -> int:

@@ -54,8 +54,8 @@ class Analyzer:
         self.receiver = ReceiverInfo()  # what the receiver announces about itself (TXT)
         self.span, self.median, self.counts = SessionSpan(), MedianPosition(fixed), SatCounts()  # site record
         self._epoch_stages: tuple[Callable[[Epoch], None], ...] = (
-            self.integrity.on_epoch, self.fix.on_epoch, self.position.on_epoch, self.dop.on_epoch,
-            self.signal.on_epoch, self.reflection.on_epoch, self.span.on_epoch, self.median.on_epoch,
+            self.integrity.on_epoch, self.fix.epoch_step(), self.position.epoch_step(), self.dop.on_epoch,
+            self.signal.epoch_step(), self.reflection.epoch_step(), self.span.on_epoch, self.median.on_epoch,
             self.counts.on_epoch)  # then sky (needs signal.active) and trend, in on_epoch
         self._event_stages: tuple[Callable[[Event], None], ...] = (
             self.integrity.on_event, self.fix.on_event, self.position.on_event, self.receiver.on_event)

@@ -39,7 +39,7 @@ from livefix.analysis import fixes_native
 from livefix.analysis import starts as start_rec
 from livefix.analysis.availability import DATA_GAP_MIN, RESTART, UNKNOWN, TimeBook, share_where
 from livefix.analysis.config import AnalysisConfig
-from livefix.analysis.counts import pick_core
+from livefix.analysis.counts import bound_on_epoch, pick_core
 from livefix.analysis.geo import EcefMemo, Projector
 from livefix.analysis.streaming import Timeline, num, valid_fix
 from livefix.geodesy import LocalFrame
@@ -202,6 +202,15 @@ class FixStats:
     def on_epoch(self, ep: Epoch) -> None:
         if self._fast is not None and self._fast(self, ep):
             return  # a running session's epoch, done by the C twin (it hands back every other case)
+        self.epoch_reference(ep)
+
+    def epoch_step(self) -> Callable[[Epoch], None]:
+        """on_epoch as the Analyzer calls it (counts.bound_on_epoch; the core is fix_step's module)."""
+        core = None if self._fast is None else self._fast.__self__
+        return bound_on_epoch(core, "fix", self, FixStats, FixStats.epoch_reference)
+
+    def epoch_reference(self, ep: Epoch) -> None:
+        """The Python code of on_epoch: the reference the C step twins."""
         clock = self.clock
         t = clock.step(ep)
         # labels on the receiver's clock: an epoch without a time (no fix, empty time fields) is

@@ -38,7 +38,7 @@ import numpy as np
 from livefix.analysis import geo
 from livefix.analysis.config import AnalysisConfig
 from livefix.analysis.convergence import FLUSH_AT, HEAD_CAP, Convergence, Target
-from livefix.analysis.counts import load_core, pick_core
+from livefix.analysis.counts import bound_on_epoch, load_core, pick_core
 from livefix.analysis.geo import EcefMemo, Projector
 from livefix.analysis.jumps import Jumps
 from livefix.analysis.motion import CONFIRM, MotionDetector
@@ -163,6 +163,14 @@ class PositionStats:
         core = self._core
         if core is not None and core.position_epoch(self, ep):
             return
+        self.epoch_reference(ep)
+
+    def epoch_step(self) -> Callable[[Epoch], None]:
+        """on_epoch as the Analyzer calls it (counts.bound_on_epoch)."""
+        return bound_on_epoch(self._core, "position", self, PositionStats, PositionStats.epoch_reference)
+
+    def epoch_reference(self, ep: Epoch) -> None:
+        """The Python code of on_epoch: the reference the C step twins."""
         clock = self.clock  # the Analyzer shares the fix statistics' timeline (stepped there first)
         t = clock.t if ep is clock._ep else clock.step(ep)  # Timeline.follow, without the call
         self._epochs += 1

@@ -19,12 +19,14 @@ the spectra of the newest KEEP_CURVES arcs.
 from __future__ import annotations
 
 from collections import Counter, deque
+from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
 
 from livefix.analysis.arcs import Arc, ArcCollector, split_monotonic
+from livefix.analysis.counts import bound_on_epoch
 from livefix.analysis.reflection import (
     ArcFit,
     ReflectionConfig,
@@ -68,9 +70,10 @@ def evaluate(arc: Arc, cfg: ReflectionConfig) -> ArcResult:
 
 
 class ReflectionStats:
-    def __init__(self, cfg: ReflectionConfig | None = None) -> None:
+    def __init__(self, cfg: ReflectionConfig | None = None, native: bool | None = None) -> None:
+        """native: the arc sampler in C (ArcCollector; None as LIVEFIX_PURE says)."""
         self.cfg = cfg or ReflectionConfig()
-        self._arcs = ArcCollector(self.cfg)
+        self._arcs = ArcCollector(self.cfg, native)
         self._sample_s = self.cfg.sample_s  # the collector's sampling interval (frozen config)
         self.reset()
 
@@ -112,6 +115,12 @@ class ReflectionStats:
         self._spec_sum += amp
         self._n_spec += 1
         self._curves.append((res, amp))
+
+    def epoch_step(self) -> Callable[[Epoch], None]:
+        """on_epoch as the Analyzer calls it (counts.bound_on_epoch): with the C arc sampler, the
+        collector's first test in C (no Python frame for the nine epochs in ten it refuses), running
+        on_epoch otherwise."""
+        return bound_on_epoch(self._arcs._core, "reflection", self, ReflectionStats, ReflectionStats.on_epoch)
 
     def on_epoch(self, ep: Epoch) -> None:
         arcs = self._arcs

@@ -101,6 +101,19 @@ class SignalStats:
     def on_epoch(self, ep: Epoch) -> None:
         if self._core is not None and self._core.step(self, ep):
             return  # done in C (_sigcore_step.c); False: nothing was changed, the code below runs the epoch
+        self.epoch_reference(ep)
+
+    def epoch_step(self) -> Callable[[Epoch], None]:
+        """on_epoch as the Analyzer calls it: the C step bound to this stage, running
+        epoch_reference when it hands back (_sigcore.c bind_step: no Python frame per epoch), else
+        on_epoch itself."""
+        core = self._core
+        if core is None or not hasattr(core, "bind_step") or type(self) is not SignalStats:
+            return self.on_epoch  # a subclass keeps its own on_epoch
+        return core.bind_step(self, SignalStats.epoch_reference)
+
+    def epoch_reference(self, ep: Epoch) -> None:
+        """The Python code of on_epoch: the reference the C step twins."""
         if ep.sats is not self._last_sats:  # the state model reuses the tuple while unchanged
             self._last_sats = ep.sats
             self.cur = [s for s in ep.sats if s.cn0 and s.cn0 > 0]

@@ -71,7 +71,8 @@ def test_garbage_flood_keeps_the_monitor_responsive_and_records_every_byte(tmp_p
     try:
         assert flood_done.wait(20)
         during = [x for x in snaps if x.counters.bytes > 0]
-        assert wait_for(lambda: s.latest is not None and s.latest.link == Link.LOST)
+        # the backlog of the flood drains first: on a loaded 2-core host that took over 10 s once
+        assert wait_for(lambda: s.latest is not None and s.latest.link == Link.LOST, limit_s=40.0)
     finally:
         s.stop()
         srv.close()
