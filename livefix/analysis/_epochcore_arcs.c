@@ -150,6 +150,14 @@ static int take(PyObject *coll, PyObject *tracks, PyObject *s, PyObject *t, doub
         rc = tr != NULL ? close_arc(coll, key) : 0;
         goto done;
     }
+    if (tr != NULL && !track_ok(tr)) { /* checked before; only Python code run since could change it */
+        PyErr_SetString(PyExc_RuntimeError, "arc_sample: an arc in progress changed type meanwhile");
+        goto done;
+    }
+    /* the values to store, made before any Python code runs (wavelength(), _close(), _Track()) */
+    v[0] = Py_NewRef(t), v[1] = as_float(el, e), v[2] = as_float(az, a), v[3] = as_float(c, cn);
+    if (v[1] == NULL || v[2] == NULL || v[3] == NULL)
+        goto done;
     if (tr == NULL) {
         PyObject *lam = PyObject_CallFunctionObjArgs(ac_wavelength, slot(s, ac_sv[V_SYSTEM]),
                                                      slot(s, ac_sv[V_SIGNAL]), NULL);
@@ -173,9 +181,6 @@ static int take(PyObject *coll, PyObject *tracks, PyObject *s, PyObject *t, doub
                 goto done;
         }
     }
-    v[0] = Py_NewRef(t), v[1] = as_float(el, e), v[2] = as_float(az, a), v[3] = as_float(c, cn);
-    if (v[1] == NULL || v[2] == NULL || v[3] == NULL)
-        goto done;
     for (int k = T_T; k <= T_CN0; k++)
         if (append(slot(tr, ac_tr[k]), v[k]) < 0)
             goto done;
@@ -286,15 +291,17 @@ PyObject *ep_arc_sample(PyObject *Py_UNUSED(mod), PyObject *const *a, Py_ssize_t
             if (!track_ok(tr))
                 return handed();
     }
-    /* checked: from here on as the reference, writes included */
+    /* checked: from here on as the reference, writes included (what is read is held: Python code runs) */
     Py_INCREF(tracks);
     Py_INCREF(sats);
+    Py_INCREF(t);
     int rc = PyDict_SetItem(d, ac_name[N_T], t); /* self._t = t */
     double lo = cv[C_LO] - ac_edge, hi = cv[C_HI] + ac_edge;
     for (Py_ssize_t i = 0; rc == 0 && i < PyTuple_GET_SIZE(sats); i++)
         rc = take(coll, tracks, PyTuple_GET_ITEM(sats, i), t, tv, lo, hi, cv[C_GAP]);
     if (rc == 0)
         rc = close_stale(coll, tracks, t, tv, cv[C_GAP]);
+    Py_DECREF(t);
     Py_DECREF(sats);
     Py_DECREF(tracks);
     if (rc < 0)
