@@ -44,8 +44,11 @@ def _one_blas_thread() -> None:
         os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 
 
-# commands that run to the end of their input and exit (livefix.batchgc)
-BATCH_COMMANDS = frozenset({"report", "check", "compare"})
+# Commands that always read a file to its end and exit: sparse collection from the first import
+# (livefix.batchgc). `check` may watch a live source for days, so it keeps the defaults until its
+# file runs (check/runner.py); every command here is frozen at exit.
+FILE_COMMANDS = frozenset({"report", "compare"})
+FROZEN_AT_EXIT = FILE_COMMANDS | {"check"}
 
 
 def _command(argv: list[str]) -> str | None:
@@ -55,18 +58,19 @@ def _command(argv: list[str]) -> str | None:
 
 def entry() -> int:
     """The program in a process of its own (console script, `python -m livefix`): main(), with two
-    changes to garbage collection for a batch command. From the start it collects sparsely (the
-    imports alone ran about 50 young collections at the default thresholds), and at the end the
-    objects left are frozen, so the interpreter's last cycle collection at exit does not walk them:
-    the command has closed what it wrote (with blocks) and the interpreter still flushes the standard
-    streams. About 2 % of a one-hour report, bench/RESULTS.md. Tests call main() and keep the defaults."""
-    batch = _command(sys.argv[1:]) in BATCH_COMMANDS
-    if batch:
+    changes to garbage collection. A report or comparison collects sparsely from the start (the
+    imports alone ran about 50 young collections at the default thresholds), and at the end of a
+    report, comparison or check the objects left are frozen, so the interpreter's last cycle
+    collection at exit does not walk them: the command has closed what it wrote (with blocks) and
+    the interpreter still flushes the standard streams. Together about 3 % of a one-hour report
+    (bench/RESULTS.md). Tests call main() and keep the defaults."""
+    command = _command(sys.argv[1:])
+    if command in FILE_COMMANDS:
         from livefix.batchgc import BATCH_GC_THRESHOLD
 
         gc.set_threshold(*BATCH_GC_THRESHOLD)
     code = main()
-    if batch:
+    if command in FROZEN_AT_EXIT:
         gc.freeze()
     return code
 

@@ -1,8 +1,9 @@
 """The program's own entry (`livefix.cli.entry`: the console script and `python -m livefix`): the same
-output and exit code as `main()`, and for a batch command sparse collection from the start and the
-objects frozen at the end (livefix.batchgc; the interpreter's last cycle collection then walks
-nothing). Expected values: the in-process `main()` output of the same command, and the thresholds in
-livefix.batchgc.
+output and exit code as `main()`; sparse collection from the start for a report or comparison, the
+default thresholds for everything else (a check may watch a live source for days), and the objects
+frozen at the end of a report, comparison or check (the interpreter's last cycle collection then
+walks nothing). Expected values: the in-process `main()` output of the same command, and the
+thresholds in livefix.batchgc.
 """
 
 from __future__ import annotations
@@ -59,6 +60,28 @@ def test_a_batch_command_collects_sparsely_and_freezes_at_the_end(monkeypatch: p
     assert seen == [BATCH_GC_THRESHOLD]  # set before the command's imports and run
     assert gc.get_freeze_count() > 0
     assert capsys.readouterr().out.startswith("{")
+
+
+def test_a_check_keeps_the_default_thresholds_until_its_files_run(monkeypatch: pytest.MonkeyPatch,
+                                                                    capsys: pytest.CaptureFixture[str],
+                                                                    clean_gc: None) -> None:
+    from livefix.commands import check
+
+    gc.unfreeze()
+    before = gc.get_threshold()
+    seen: list[tuple[int, int, int]] = []
+    run = check.run
+
+    def spy(args: object) -> int:
+        seen.append(gc.get_threshold())
+        return run(args)
+
+    monkeypatch.setattr(check, "run", spy)
+    monkeypatch.setattr(sys, "argv", ["livefix", "check", str(DEMO)])
+    assert cli.entry() in (0, 1)  # a verdict either way
+    assert seen == [before]
+    assert gc.get_threshold() == before and gc.get_freeze_count() > 0
+    capsys.readouterr()
 
 
 def test_other_commands_keep_the_collector(monkeypatch: pytest.MonkeyPatch, capsys: pytest.CaptureFixture[str],
