@@ -13,6 +13,7 @@ import subprocess
 import sys
 from collections.abc import Iterator
 from pathlib import Path
+from types import ModuleType
 
 import pytest
 
@@ -32,6 +33,19 @@ def clean_gc() -> Iterator[None]:
     gc.set_threshold(*old)
 
 
+def _thresholds_seen_by(command: ModuleType, monkeypatch: pytest.MonkeyPatch) -> list[tuple[int, int, int]]:
+    """The collector's thresholds when the command's run() starts, one entry per run."""
+    seen: list[tuple[int, int, int]] = []
+    run = command.run
+
+    def spy(args: object) -> int:
+        seen.append(gc.get_threshold())
+        return run(args)
+
+    monkeypatch.setattr(command, "run", spy)
+    return seen
+
+
 def test_python_m_livefix_prints_what_main_prints(capsys: pytest.CaptureFixture[str]) -> None:
     assert cli.main(["report", str(DEMO), "--json", "--jobs", "1"]) == 0
     expected = capsys.readouterr().out
@@ -46,14 +60,7 @@ def test_a_batch_command_collects_sparsely_and_freezes_at_the_end(monkeypatch: p
                                                                   clean_gc: None) -> None:
     from livefix.commands import report
 
-    seen: list[tuple[int, int, int]] = []
-    run = report.run
-
-    def spy(args: object) -> int:
-        seen.append(gc.get_threshold())
-        return run(args)
-
-    monkeypatch.setattr(report, "run", spy)
+    seen = _thresholds_seen_by(report, monkeypatch)
     monkeypatch.setattr(sys, "argv", ["livefix", "report", str(DEMO), "--json", "--jobs", "1"])
     gc.unfreeze()
     assert cli.entry() == 0
@@ -69,14 +76,7 @@ def test_a_check_keeps_the_default_thresholds_until_its_files_run(monkeypatch: p
 
     gc.unfreeze()
     before = gc.get_threshold()
-    seen: list[tuple[int, int, int]] = []
-    run = check.run
-
-    def spy(args: object) -> int:
-        seen.append(gc.get_threshold())
-        return run(args)
-
-    monkeypatch.setattr(check, "run", spy)
+    seen = _thresholds_seen_by(check, monkeypatch)
     monkeypatch.setattr(sys, "argv", ["livefix", "check", str(DEMO)])
     assert cli.entry() in (0, 1)  # a verdict either way
     assert seen == [before]
