@@ -51,4 +51,4 @@ docs: $(STAMP)  # the metric table, generated from livefix/analysis/catalogue.py
 	$(PY) -m livefix.analysis.catalogue > docs/metrics.md
 
 clean:
-	rm -rf $(VENV) build *.egg-info .pytest_cache .ruff_cache livefix/_native*.so livefix/*/_*core*.so
+	rm -rf $(VENV) build *.egg-info .pytest_cache .ruff_cache livefix/_native*.so livefix/_wirecore*.so livefix/*/_*core*.so

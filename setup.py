@@ -1,6 +1,7 @@
 """Build of the optional C cores (livefix._native, livefix.state._gsvcore, livefix.state._usedcore,
 livefix.state._skycore, livefix.state._statecore, livefix.state._clockcore, livefix.analysis._sigcore,
-livefix.analysis._dopcore, livefix.analysis._epochcore, livefix.record._reccore: C_CORES);
+livefix.analysis._dopcore, livefix.analysis._epochcore, livefix.record._reccore, livefix._wirecore:
+C_CORES);
 everything else is declared in pyproject.toml.
 
 Each extension is optional: when it cannot be compiled (no C compiler, no Python headers) the install
@@ -104,6 +105,8 @@ C_CORES = {
     # the record scan of a replay: heads, CRC, items (livefix/record/reader.py keeps the reference)
     "livefix.record._reccore": (["livefix/record/_reccore.c", "livefix/record/_reccore_crc.c"],
                                 ["livefix/record/_reccore.h"]),
+    # the packed wire of the two-process split (livefix/wire.py keeps the pickled reference)
+    "livefix._wirecore": (["livefix/_wirecore.c", "livefix/_wirecore_read.c"], ["livefix/_wirecore.h"]),
 }
 
 setup(

@@ -32,6 +32,7 @@ from fuzz_state import load_state_core, state_diff
 from fuzz_track import diff as track_diff
 from fuzz_used import load_used_core
 from fuzz_used import used_diff as tracker_diff
+from fuzz_wire import load_wire_core, wire_diff
 
 # The later twins: module -> loader of another build of it (the sanitizer build, --twin-core NAME=PATH)
 TWIN_LOADERS = {
@@ -42,6 +43,7 @@ TWIN_LOADERS = {
     "livefix.state._statecore": load_state_core,
     "livefix.state._clockcore": load_clock_core,
     "livefix.record._reccore": load_rec_core,
+    "livefix._wirecore": load_wire_core,
 }
 
 
@@ -86,6 +88,7 @@ LATER = (
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
     ("record scan", "recordings", "livefix.record.reader", "_reccore", _handed(reader_diff), 0.05, 10_000),
     ("SignalStats step", "epochs", "livefix.analysis.signal", "_sigcore", _handed(signal_step_diff), 0.5, 5_000),
+    ("packed wire", "calls", "livefix.wire", "_wirecore", _plain(wire_diff), 0.1, 100_000),
 )
 
 

@@ -6,13 +6,10 @@ proxy records the four Analyzer calls in order and sends them in batches to a ch
 replays them into a real Analyzer built from the same AnalysisConfig; `snapshot(counters)` asks the
 child for `Analyzer.snapshot(counters)`. Same calls, same order, same values -> same snapshot.
 
-Wire format (pickled batches, length-prefixed, over two OS pipes): epochs travel as plain tuples of
-their fields and are rebuilt in the child (pickling the slots dataclass costs far more). An epoch's
-satellite tuple is usually the very same object for many epochs; it is sent once with a small id
-and the child hands out one rebuilt tuple per id, so identity-based shortcuts in the statistics
-behave as in one process. Events are rare and go as they are. The proxy is a
-livefix.contracts.Analysis (the feeding calls and the snapshot), not a SteerableAnalysis: batch runs
-never reset or move the reference.
+Wire format: length-prefixed pickled messages over two OS pipes; a batch holds the recorded calls
+as livefix.wire encodes them, packed by the C core when it is built (M_PACKED) and pickled records
+otherwise (M_BATCH). The proxy is a livefix.contracts.Analysis (the feeding calls and the
+snapshot), not a SteerableAnalysis: batch runs never reset or move the reference.
 
 Robustness: the front's pipe ends are non-blocking and every wait is a select() with a timeout that
 also checks the child is alive, so a crashed, killed or stuck child gives AnalysisProcessError (one
@@ -24,7 +21,6 @@ may hold source threads or locks).
 
 from __future__ import annotations
 
-import dataclasses
 import gc
 import os
 import pickle
@@ -36,16 +32,15 @@ import sys
 import time
 from collections.abc import Iterator
 from contextlib import contextmanager
-from operator import attrgetter
 from pathlib import Path
 from typing import Any
 
 from livefix.analysis.config import AnalysisConfig
 from livefix.contracts import Analysis
-from livefix.state.epoch import Epoch, SatObs, make_epoch, make_satobs
+from livefix.state.epoch import Epoch
+from livefix.wire import CHUNK, EVENT, REJECTED, Replayer, encode, packer
 
 BATCH_EPOCHS = 256  # epochs per message: large enough to amortise pickling, small enough to stream
-SATS_TABLE_MAX = 256  # satellite tuples remembered by id on both sides (bounded)
 STALL_S = 120.0  # no progress writing to / reading from a live child for this long = stuck
 TICK_S = 0.5  # how often a wait looks at the child
 PROTOCOL = 5
@@ -55,17 +50,8 @@ GZIP_RATIO = 9  # NMEA recordings compress about 9:1 (measured on the demo recor
 SPLIT_MIN_BYTES = 5_000_000
 PIPE_BYTES = 1 << 20  # front -> child buffer: bounded, and hides the child's ~0.2 s start-up
 
-# Record kinds inside a batch (first element of each record).
-CHUNK, REJECTED, EVENT, EPOCH, SATS, CLEAR = range(6)
-# Message kinds.
-M_CONFIG, M_BATCH, M_SNAPSHOT, M_STOP, M_REPLY, M_ERROR = range(6)
-
-_EPOCH_FIELDS = tuple(f.name for f in dataclasses.fields(Epoch))
-_SATS_AT = _EPOCH_FIELDS.index("sats")
-_epoch_rest = attrgetter(*(n for n in _EPOCH_FIELDS if n != "sats"))
-_sat_values = attrgetter(*(f.name for f in dataclasses.fields(SatObs)))
-if not all(f.init for f in dataclasses.fields(Epoch)) or not all(f.init for f in dataclasses.fields(SatObs)):
-    raise ImportError("Epoch/SatObs gained a non-init field: update livefix.parallel")
+# Message kinds. M_BATCH carries pickled records, M_PACKED the packed ones (livefix.wire).
+M_CONFIG, M_BATCH, M_SNAPSHOT, M_STOP, M_REPLY, M_ERROR, M_PACKED = range(7)
 _HEADER = struct.Struct("!Q")
 
 
@@ -74,59 +60,6 @@ class AnalysisProcessError(RuntimeError):
 
 
 # -- wire helpers ---------------------------------------------------------------------------------
-def encode(calls: list, table: dict[int, tuple[tuple, int]], next_id: list[int]) -> list[tuple]:
-    """Recorded calls -> picklable records. `table` maps id(sats) -> (sats, sats id) and holds the
-    tuples so their ids stay unique; `next_id` is a one-item counter. Both persist across batches."""
-    out: list[tuple] = []
-    app = out.append
-    for c in calls:
-        if c.__class__ is Epoch:
-            sats = c.sats
-            hit = table.get(id(sats))
-            if hit is None or hit[0] is not sats:
-                if len(table) >= SATS_TABLE_MAX:
-                    table.clear()
-                    app((CLEAR,))
-                sid = next_id[0]
-                next_id[0] += 1
-                table[id(sats)] = (sats, sid)
-                app((SATS, sid, tuple(map(_sat_values, sats))))
-            else:
-                sid = hit[1]
-            app((EPOCH, sid) + _epoch_rest(c))
-        else:
-            app(c)
-    return out
-
-
-class Replayer:
-    """Feeds decoded records into an analyzer in order (the child's half of `encode`)."""
-
-    def __init__(self, analyzer: Analysis) -> None:
-        self.analyzer = analyzer
-        self._sats: dict[int, tuple[SatObs, ...]] = {}
-        chunk, rejected, event, epoch = analyzer.on_chunk, analyzer.on_rejected, analyzer.on_event, analyzer.on_epoch
-        self._do = (
-            lambda r: chunk(r[1], r[2], r[3]),
-            lambda r: rejected(r[1], r[2], r[3]),
-            lambda r: event(r[1]),
-            lambda r: epoch(self.epoch(r)),
-            lambda r: self._sats.__setitem__(r[1], tuple([make_satobs(s) for s in r[2]])),
-            lambda r: self._sats.clear(),
-        )
-
-    def epoch(self, r: tuple) -> Epoch:
-        # make_epoch: the slots filled at once, as the state model builds them (Epoch's frozen
-        # __init__ sets each field through object.__setattr__, several times slower)
-        k = _SATS_AT + 2
-        return make_epoch(r[2:k] + (self._sats[r[1]],) + r[k:])
-
-    def run(self, records: list[tuple]) -> None:
-        do = self._do
-        for r in records:
-            do[r[0]](r)
-
-
 def _dump(kind: int, body: Any) -> bytes:
     data = pickle.dumps((kind, body), PROTOCOL)
     return _HEADER.pack(len(data)) + data
@@ -172,6 +105,8 @@ def serve(rfd: int, wfd: int) -> int:
                 replay = Replayer(Analyzer(payload))
             elif kind == M_BATCH and replay is not None:
                 replay.run(payload)
+            elif kind == M_PACKED and replay is not None:
+                replay.run_packed(*payload)
             elif kind == M_SNAPSHOT and replay is not None:
                 _write_all(wfd, _dump(M_REPLY, replay.analyzer.snapshot(payload)))
             elif kind == M_STOP:
@@ -191,7 +126,7 @@ class AnalysisProcess:
     """Stands in for the Analyzer in a Pipeline; the real one runs in a child process."""
 
     def __init__(self, config: AnalysisConfig | None = None, batch_epochs: int = BATCH_EPOCHS,
-                 stall_s: float = STALL_S) -> None:
+                 stall_s: float = STALL_S, native: bool | None = None) -> None:
         self.batch_epochs = batch_epochs
         self.stall_s = stall_s
         self.pickle_s = 0.0  # front CPU seconds spent encoding and pickling (for the bench)
@@ -201,6 +136,7 @@ class AnalysisProcess:
         self._epochs = 0
         self._table: dict[int, tuple[tuple, int]] = {}
         self._next_id = [0]
+        self._pack = packer(native)  # None: pickled records (native as livefix.corepick.pick_core)
         self._closed = False
         c_read, f_write = os.pipe()
         f_read, c_write = os.pipe()
@@ -241,7 +177,10 @@ class AnalysisProcess:
             return
         t0 = time.thread_time()
         try:
-            data = _dump(M_BATCH, encode(self._calls, self._table, self._next_id))
+            if self._pack is not None:
+                data = _dump(M_PACKED, self._pack(self._calls))
+            else:
+                data = _dump(M_BATCH, encode(self._calls, self._table, self._next_id))
         except (pickle.PicklingError, TypeError, AttributeError) as exc:  # e.g. an odd value in Event.data
             raise AnalysisProcessError(f"cannot send to the analysis process: {type(exc).__name__}: {exc}") from None
         self.pickle_s += time.thread_time() - t0

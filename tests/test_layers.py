@@ -44,6 +44,7 @@ RANKS: dict[str, int] = {
     # 7: running the stages: the pipeline, its two-process split, the threaded session, start-up probes
     "livefix.pipeline": 7,
     "livefix.parallel": 7,
+    "livefix.wire": 7,
     "livefix.session": 7,
     "livefix.probe": 7,
     # 8..11: readers of snapshots; where one reuses another, documents < metrics < checks < screen

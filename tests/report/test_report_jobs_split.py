@@ -16,25 +16,22 @@ import time
 from pathlib import Path
 
 import pytest
+from twinkit import bench_module
 
 from livefix.analysis.engine import Analyzer
 from livefix.parallel import (
-    CHUNK,
-    EVENT,
     M_BATCH,
-    REJECTED,
-    SATS_TABLE_MAX,
+    M_PACKED,
     AnalysisProcess,
     AnalysisProcessError,
-    Replayer,
     _dump,
     content_bytes,
-    encode,
     want_split,
 )
 from livefix.pipeline import Pipeline, StreamCounters
 from livefix.record.reader import RecordingReader
 from livefix.state.epoch import Epoch, SatObs
+from livefix.wire import CHUNK, EVENT, REJECTED, SATS_TABLE_MAX, Replayer, encode, wire_core
 
 ROOT = Path(__file__).resolve().parents[2]
 RECORDINGS = sorted((ROOT / "recordings").glob("*.lfr"))
@@ -59,32 +56,13 @@ def _report(path: Path | str, jobs: str, *extra: str, stdin: bytes | None = None
                           cwd=ROOT, capture_output=True, timeout=TIMEOUT_S, input=stdin)
 
 
-class _Calls:
-    """An analysis sink that keeps the calls it receives, in order, in the proxy's record form."""
-
-    def __init__(self) -> None:
-        self.calls: list = []
-
-    def on_chunk(self, mono: float, wall: float, nbytes: int) -> None:
-        self.calls.append((CHUNK, mono, wall, nbytes))
-
-    def on_rejected(self, reason: str, mono: float, wall: float) -> None:
-        self.calls.append((REJECTED, reason, mono, wall))
-
-    def on_event(self, ev: object) -> None:
-        self.calls.append((EVENT, ev))
-
-    def on_epoch(self, ep: Epoch) -> None:
-        self.calls.append(ep)
-
-
 def test_epochs_rebuilt_from_the_wire_are_equal_and_share_satellites_like_the_front(soak_file: Path) -> None:
-    front = _Calls()
+    front = bench_module("fuzz_wire").Sink()  # keeps the calls in the proxy's record form
     p = Pipeline(analyzer=front)
     for it in RecordingReader(soak_file).items():
         p.feed(it)
     p.finish()
-    child = _Calls()
+    child = bench_module("fuzz_wire").Sink()
     rep = Replayer(child)
     table: dict = {}
     counter = [0]
@@ -140,6 +118,19 @@ def test_a_child_failure_is_one_clear_line() -> None:
     try:
         remote._send(_dump(M_BATCH, [(99,)]))  # a record kind the child does not know
         with pytest.raises(AnalysisProcessError, match=r"^analysis process failed: IndexError"):
+            remote.snapshot(StreamCounters())
+    finally:
+        remote.kill()
+    assert remote.proc.returncode is not None
+
+
+@pytest.mark.skipif(wire_core() is None, reason="the packed wire needs the C core")
+def test_a_corrupt_packed_batch_is_one_clear_line() -> None:
+    remote = AnalysisProcess()
+    try:
+        remote._send(_dump(M_PACKED, (bytes([77]), [])))  # a record kind the packed wire does not have
+        with pytest.raises(AnalysisProcessError,
+                           match=r"^analysis process failed: ValueError: packed batch: unknown record kind$"):
             remote.snapshot(StreamCounters())
     finally:
         remote.kill()
