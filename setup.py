@@ -106,7 +106,7 @@ C_CORES = {
     "livefix.record._reccore": (["livefix/record/_reccore.c", "livefix/record/_reccore_crc.c"],
                                 ["livefix/record/_reccore.h"]),
     # the packed wire of the two-process split (livefix/wire.py keeps the pickled reference)
-    "livefix._wirecore": (["livefix/_wirecore.c", "livefix/_wirecore_read.c"], ["livefix/_wirecore.h"]),
+    "livefix._wirecore": (["livefix/_wirecore.c", "livefix/_wirecore_read.c"], ["livefix/_wirecore.h", "livefix/_corekit.h"]),
 }
 
 setup(

@@ -90,6 +90,45 @@ static inline int kit_slot_offsets(PyObject *type, const char *const *names, int
     return 0;
 }
 
+/* The class whose slots a tuple of slot descriptors names, when it may be filled slot by slot
+ * without its __init__: a heap class on object with object slots only (no other C fields, no
+ * __dict__ or __weakref__), and every descriptor one of its writable object slots. Borrowed; NULL
+ * with TypeError("<who>: ...") otherwise. A slot named twice is the caller's to refuse. (make() in
+ * livefix/_native_make.c checks this on every call, the packed wire once: livefix/_wirecore.c.) */
+static inline PyTypeObject *kit_slot_class(PyObject *slots, const char *who)
+{
+    Py_ssize_t n = PyTuple_GET_SIZE(slots), members = 0, i;
+    if (n == 0 || !Py_IS_TYPE(PyTuple_GET_ITEM(slots, 0), &PyMemberDescr_Type)) {
+        PyErr_Format(PyExc_TypeError, "%s: one value per slot descriptor", who);
+        return NULL;
+    }
+    PyTypeObject *tp = PyDescr_TYPE(PyTuple_GET_ITEM(slots, 0));
+    if (!(tp->tp_flags & Py_TPFLAGS_HEAPTYPE) || tp->tp_base != &PyBaseObject_Type || tp->tp_itemsize != 0
+        || tp->tp_dictoffset != 0 || tp->tp_weaklistoffset != 0 || tp->tp_members == NULL
+        || tp->tp_basicsize != (Py_ssize_t)(sizeof(PyObject) + n * sizeof(PyObject *))) {
+        PyErr_Format(PyExc_TypeError, "%s: a class of __slots__ only, on object", who);
+        return NULL;
+    }
+    while (tp->tp_members[members].name != NULL) members++;
+    if (members != n) {
+        PyErr_Format(PyExc_TypeError, "%s: %s has %zd slots, %zd given", who, tp->tp_name, members, n);
+        return NULL;
+    }
+    for (i = 0; i < n; i++) {
+        PyObject *d = PyTuple_GET_ITEM(slots, i);
+        if (!Py_IS_TYPE(d, &PyMemberDescr_Type) || PyDescr_TYPE(d) != tp) break;
+        PyMemberDef *m = ((PyMemberDescrObject *)d)->d_member;
+        if (m->type != T_OBJECT_EX || (m->flags & READONLY) || m->offset < (Py_ssize_t)sizeof(PyObject)
+            || m->offset > tp->tp_basicsize - (Py_ssize_t)sizeof(PyObject *))
+            break;
+    }
+    if (i < n) {
+        PyErr_Format(PyExc_TypeError, "%s: slot %zd is not a writable object slot of %s", who, i, tp->tp_name);
+        return NULL;
+    }
+    return tp;
+}
+
 /* ---- a dict's modification stamp ---- */
 
 /* The version tag of PEP 509 (CPython 3.11): every insert, delete or value change of d gives it a

@@ -26,50 +26,31 @@
  * runs while the front packs (the values are exact builtins; pickling `others` is the caller's).
  */
 #include "_wirecore.h"
+#include "_corekit.h" /* kit_slot_class */
 
-/* The checks of livefix._native's make(): a heap class of object slots only, one writable object
- * slot per descriptor, in the order given; 0, or -1 with TypeError. */
+/* The class the slot descriptors name (livefix/_corekit.h, kit_slot_class: make()'s checks) and
+ * their offsets, each slot once; 0, or -1 with TypeError. */
 int shape_of(PyObject *slots, Shape *sh)
 {
-    if (!PyTuple_CheckExact(slots) || PyTuple_GET_SIZE(slots) == 0 || PyTuple_GET_SIZE(slots) > MAX_SLOTS
-        || !Py_IS_TYPE(PyTuple_GET_ITEM(slots, 0), &PyMemberDescr_Type)) {
-        PyErr_SetString(PyExc_TypeError, "a tuple of 1 to 64 slot descriptors");
+    if (!PyTuple_CheckExact(slots) || PyTuple_GET_SIZE(slots) > MAX_SLOTS) {
+        PyErr_SetString(PyExc_TypeError, "wire: a tuple of at most 64 slot descriptors");
         return -1;
     }
-    Py_ssize_t n = PyTuple_GET_SIZE(slots), members = 0;
-    PyTypeObject *tp = PyDescr_TYPE(PyTuple_GET_ITEM(slots, 0));
-    if (!(tp->tp_flags & Py_TPFLAGS_HEAPTYPE) || tp->tp_base != &PyBaseObject_Type || tp->tp_itemsize != 0
-        || tp->tp_dictoffset != 0 || tp->tp_weaklistoffset != 0 || tp->tp_members == NULL
-        || tp->tp_basicsize != (Py_ssize_t)(sizeof(PyObject) + n * sizeof(PyObject *))) {
-        PyErr_SetString(PyExc_TypeError, "a class of __slots__ only, on object");
-        return -1;
-    }
-    while (tp->tp_members[members].name != NULL) members++;
-    if (members != n) {
-        PyErr_Format(PyExc_TypeError, "%s has %zd slots, %zd given", tp->tp_name, members, n);
-        return -1;
-    }
+    PyTypeObject *tp = kit_slot_class(slots, "wire");
+    if (tp == NULL) return -1;
+    Py_ssize_t n = PyTuple_GET_SIZE(slots);
     for (Py_ssize_t i = 0; i < n; i++) {
-        PyObject *d = PyTuple_GET_ITEM(slots, i);
-        PyMemberDef *m = Py_IS_TYPE(d, &PyMemberDescr_Type) && PyDescr_TYPE(d) == tp
-                             ? ((PyMemberDescrObject *)d)->d_member : NULL;
-        if (m == NULL || m->type != T_OBJECT_EX || (m->flags & READONLY) || m->offset < (Py_ssize_t)sizeof(PyObject)
-            || m->offset > tp->tp_basicsize - (Py_ssize_t)sizeof(PyObject *)) {
-            PyErr_Format(PyExc_TypeError, "slot %zd is not a writable object slot of %s", i, tp->tp_name);
-            return -1;
-        }
+        sh->off[i] = ((PyMemberDescrObject *)PyTuple_GET_ITEM(slots, i))->d_member->offset;
         for (Py_ssize_t j = 0; j < i; j++)
-            if (sh->off[j] == m->offset) {
-                PyErr_Format(PyExc_TypeError, "slot %zd of %s given twice", i, tp->tp_name);
+            if (sh->off[j] == sh->off[i]) {
+                PyErr_Format(PyExc_TypeError, "wire: slot %zd of %s given twice", i, tp->tp_name);
                 return -1;
             }
-        sh->off[i] = m->offset;
     }
     sh->n = n;
     sh->tp = (PyTypeObject *)Py_NewRef(tp);
     return 0;
 }
-
 
 /* a new instance with every slot set from vals (references stolen, all non-NULL) */
 PyObject *shape_new(Shape *sh, PyObject **vals)
@@ -110,7 +91,7 @@ static int grow(Buf *b, size_t more)
     return 0;
 }
 
-static inline int put(Buf *b, const void *src, size_t n)
+static inline int buf_put(Buf *b, const void *src, size_t n)
 {
     if (b->len + n > b->cap && grow(b, n) < 0) return -1;
     memcpy(b->p + b->len, src, n);
@@ -118,14 +99,14 @@ static inline int put(Buf *b, const void *src, size_t n)
     return 0;
 }
 
-static inline int put_u8(Buf *b, unsigned v)
+static inline int buf_u8(Buf *b, unsigned v)
 {
     if (b->len + 1 > b->cap && grow(b, 1) < 0) return -1;
     b->p[b->len++] = (char)v;
     return 0;
 }
 
-static int put_u32(Buf *b, uint32_t v) { return put(b, &v, 4); }
+static int buf_u32(Buf *b, uint32_t v) { return buf_put(b, &v, 4); }
 
 typedef struct {
     PyObject_HEAD
@@ -138,7 +119,7 @@ static int pack_value(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject
 static int pack_other(Buf *b, PyObject *others, PyObject *v)
 {
     if (PyList_Append(others, v) < 0) return -1;
-    return put_u8(b, V_OTHER);
+    return buf_u8(b, V_OTHER);
 }
 
 /* the elements of an exact tuple; refs: the field's previous tuple (its elements may be named by
@@ -147,7 +128,7 @@ static int pack_tuple(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject
 {
     Py_ssize_t n = PyTuple_GET_SIZE(v), pn = refs != NULL ? PyTuple_GET_SIZE(refs) : 0, c = 0;
     if (n > (Py_ssize_t)UINT32_MAX) return pack_other(b, others, v);
-    if (put_u8(b, V_TUPLE) < 0 || put_u32(b, (uint32_t)n) < 0) return -1;
+    if (buf_u8(b, V_TUPLE) < 0 || buf_u32(b, (uint32_t)n) < 0) return -1;
     for (Py_ssize_t i = 0; i < n; i++) {
         PyObject *e = PyTuple_GET_ITEM(v, i);
         Py_ssize_t at = -1;
@@ -159,7 +140,7 @@ static int pack_tuple(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject
         for (Py_ssize_t j = 0; at < 0 && j < pn; j++)  /* moved further: a scan (new satellites only) */
             if (PyTuple_GET_ITEM(refs, j) == e) at = j;
         if (at >= 0) {
-            if (put_u8(b, V_PREV) < 0 || put_u32(b, (uint32_t)at) < 0) return -1;
+            if (buf_u8(b, V_PREV) < 0 || buf_u32(b, (uint32_t)at) < 0) return -1;
             c = at + 1;
         } else if (pack_value(s, b, others, e, NULL, depth + 1) < 0) {
             return -1;
@@ -170,18 +151,18 @@ static int pack_tuple(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject
 
 static int pack_value(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject *refs, int depth)
 {
-    if (v == Py_None) return put_u8(b, V_NONE);
-    if (v == Py_True) return put_u8(b, V_TRUE);
-    if (v == Py_False) return put_u8(b, V_FALSE);
+    if (v == Py_None) return buf_u8(b, V_NONE);
+    if (v == Py_True) return buf_u8(b, V_TRUE);
+    if (v == Py_False) return buf_u8(b, V_FALSE);
     if (PyFloat_CheckExact(v)) {
         double d = PyFloat_AS_DOUBLE(v);
-        return put_u8(b, V_FLOAT) < 0 ? -1 : put(b, &d, 8);
+        return buf_u8(b, V_FLOAT) < 0 ? -1 : buf_put(b, &d, 8);
     }
     if (PyLong_CheckExact(v)) {
         int over = 0;
         long long x = PyLong_AsLongLongAndOverflow(v, &over);
         if (x == -1 && PyErr_Occurred()) return -1;
-        if (!over) return put_u8(b, V_INT) < 0 ? -1 : put(b, &x, 8);
+        if (!over) return buf_u8(b, V_INT) < 0 ? -1 : buf_put(b, &x, 8);
         return pack_other(b, others, v);
     }
     if (PyUnicode_CheckExact(v)) {
@@ -193,11 +174,11 @@ static int pack_value(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject
             return pack_other(b, others, v);
         }
         if ((size_t)n > UINT32_MAX) return pack_other(b, others, v);
-        return put_u8(b, V_STR) < 0 || put_u32(b, (uint32_t)n) < 0 ? -1 : put(b, u, (size_t)n);
+        return buf_u8(b, V_STR) < 0 || buf_u32(b, (uint32_t)n) < 0 ? -1 : buf_put(b, u, (size_t)n);
     }
     if (depth < MAX_DEPTH && PyTuple_CheckExact(v)) return pack_tuple(s, b, others, v, refs, depth);
     if (depth < MAX_DEPTH && Py_IS_TYPE(v, s->item.tp)) {
-        if (put_u8(b, V_ITEM) < 0) return -1;
+        if (buf_u8(b, V_ITEM) < 0) return -1;
         for (Py_ssize_t i = 0; i < s->item.n; i++) {
             PyObject *x = SLOT(v, &s->item, i);
             if (x == NULL) {
@@ -213,7 +194,7 @@ static int pack_value(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject
 
 static int pack_epoch(Packer *s, Buf *b, PyObject *others, PyObject *ep)
 {
-    if (put_u8(b, R_EPOCH) < 0) return -1;
+    if (buf_u8(b, R_EPOCH) < 0) return -1;
     Py_ssize_t n = s->ep.n;
     for (Py_ssize_t f = 0; f < n; f++) {
         PyObject *v = SLOT(ep, &s->ep, f);
@@ -222,7 +203,7 @@ static int pack_epoch(Packer *s, Buf *b, PyObject *others, PyObject *ep)
             return -1;
         }
         if (s->prev[f] != NULL && v == s->prev[f]) {
-            if (put_u8(b, V_SAME) < 0) return -1;
+            if (buf_u8(b, V_SAME) < 0) return -1;
         } else if (pack_value(s, b, others, v, s->prev[f], 0) < 0) {
             return -1;
         }
@@ -247,7 +228,7 @@ static int pack_call(Packer *s, Buf *b, PyObject *others, PyObject *c)
         return 0;
     }
     if (kind < R_CHUNK || kind > R_EVENT || PyTuple_GET_SIZE(c) != NARGS[kind] + 1) return 0;
-    if (put_u8(b, (unsigned)kind) < 0) return -1;
+    if (buf_u8(b, (unsigned)kind) < 0) return -1;
     for (Py_ssize_t i = 1; i <= NARGS[kind]; i++)
         if (pack_value(s, b, others, PyTuple_GET_ITEM(c, i), NULL, 1) < 0) return -1;
     return 1;
@@ -271,7 +252,7 @@ static PyObject *packer_pack(Packer *s, PyObject *calls)
             r = pack_epoch(s, &b, others, c);
         } else {
             r = pack_call(s, &b, others, c);
-            if (r == 0) r = put_u8(&b, R_OTHER) < 0 || PyList_Append(others, c) < 0 ? -1 : 1;
+            if (r == 0) r = buf_u8(&b, R_OTHER) < 0 || PyList_Append(others, c) < 0 ? -1 : 1;
         }
         if (r < 0) goto done;
     }
