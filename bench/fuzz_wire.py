@@ -9,7 +9,9 @@ surrogate or outside ASCII, lists, bytes, tuples nested past the packer's depth,
 made of the previous epoch's objects (shifted, reordered, repeated) or the very previous tuple.
 Now and then a record of an odd shape (a tuple of the wrong length, an unknown kind), which both
 paths meet with the reference's own error. Each stream is cut into batches at random and sent
-through both wires, pickled as parallel.py sends them.
+through the wires, pickled as parallel.py sends them: the C packer given the list of calls, the C
+packer as the sink whose methods the pipeline calls (the stream without the odd shapes, which no
+method call can make), and the pickled records on ordinary values.
 
 What must hold (a disagreement otherwise): the calls the child makes are the front's, in order,
 value for value and type for type (floats by their bits); an error is the same type and text at
@@ -27,7 +29,7 @@ import struct
 from typing import Any
 
 from livefix.state.epoch import EPOCH_FIELDS, Epoch, Event, SatObs, make_epoch, make_satobs
-from livefix.wire import CHUNK, EVENT, REJECTED, Replayer, encode, packer
+from livefix.wire import CHUNK, EVENT, REJECTED, Replayer, encode, packer, sink
 
 
 class OddFloat(float):
@@ -194,11 +196,22 @@ def direct(calls: list) -> tuple[list, str | None]:
     return sink.calls, None
 
 
-def through(calls: list, cuts: list[int], packed: bool) -> tuple[list, str | None]:
-    """The calls a child makes from `calls` sent in the batches `cuts` gives; and the error, if any."""
-    sink = Sink()
-    rep = Replayer(sink)
-    pack = packer(True) if packed else None
+NARGS = {CHUNK: 3, REJECTED: 3, EVENT: 1}
+
+
+def callable_shape(c: Any) -> bool:
+    """An epoch or a (kind, args...) record the Analyzer's methods can be called with."""
+    return type(c) is Epoch or (type(c) is tuple and len(c) >= 1 and c[0] in NARGS and len(c) == NARGS[c[0]] + 1)
+
+
+def through(calls: list, cuts: list[int], mode: str) -> tuple[list, str | None]:
+    """The calls a child makes from `calls` sent in the batches `cuts` gives, by the wire `mode`:
+    "pickled" (encode), "packed" (the C packer on the list of calls) or "sink" (the C packer's own
+    feeding methods, called as the pipeline calls them: only callable shapes); and the error, if any."""
+    out = Sink()
+    rep = Replayer(out)
+    pack = packer(True) if mode == "packed" else None
+    rec = sink(0, lambda: None, True) if mode == "sink" else None
     table: dict = {}
     next_id = [0]
     start = 0
@@ -206,13 +219,21 @@ def through(calls: list, cuts: list[int], packed: bool) -> tuple[list, str | Non
         for end in [*cuts, len(calls)]:
             batch = calls[start:end]
             start = end
-            if pack is not None:
+            if rec is not None:
+                feed = {CHUNK: rec.on_chunk, REJECTED: rec.on_rejected, EVENT: rec.on_event}
+                for c in batch:
+                    if type(c) is Epoch:
+                        rec.on_epoch(c)
+                    else:
+                        feed[c[0]](*c[1:])
+                rep.run_packed(*pickle.loads(pickle.dumps(rec.take(), 5)))
+            elif pack is not None:
                 rep.run_packed(*pickle.loads(pickle.dumps(pack(batch), 5)))
             else:
                 rep.run(pickle.loads(pickle.dumps(encode(batch, table, next_id), 5)))
     except Exception as exc:  # noqa: BLE001 - compared between the two paths
-        return sink.calls, f"{type(exc).__name__}: {exc}"
-    return sink.calls, None
+        return out.calls, f"{type(exc).__name__}: {exc}"
+    return out.calls, None
 
 
 def sharing(calls: list, front: list) -> list[tuple[bool | None, ...]]:
@@ -245,18 +266,19 @@ def wire_diff(n: int, seed: int) -> tuple[int, int, list[str]]:
         odd = rng.choice([0.0, 0.0, 0.0, 0.05])
         calls = stream(rng, k, odd)
         cuts = sorted(rng.sample(range(1, k), min(k - 1, rng.randint(0, 6)))) if k > 1 else []
-        ref, ref_err = direct(calls)
-        # the pickled wire is exact on ordinary values only (it rebuilds satellites from tuples)
-        for packed in (True, False) if odd == 0 else (True,):
-            got, got_err = through(calls, cuts, packed)
-            name = "packed" if packed else "pickled"
+        # the pickled wire is exact on ordinary values only (it rebuilds satellites from tuples);
+        # the sink is fed by method calls, so only the shapes those can have
+        for mode in ("packed", "sink", "pickled") if odd == 0 else ("packed", "sink"):
+            fed = [c for c in calls if callable_shape(c)] if mode == "sink" else calls
+            ref, ref_err = direct(fed)
+            got, got_err = through(fed, [c for c in cuts if c < len(fed)], mode)
             if got_err != ref_err:
-                disagree(f"{name} seed {seed} calls {done}: error {got_err!r}, reference {ref_err!r}")
+                disagree(f"{mode} seed {seed} calls {done}: error {got_err!r}, reference {ref_err!r}")
             elif len(got) != len(ref) or not all(same(a, b) for a, b in zip(got, ref, strict=True)):
                 at = next((i for i, (a, b) in enumerate(zip(got, ref, strict=False)) if not same(a, b)), len(ref))
-                disagree(f"{name} seed {seed} calls {done}: call {at} differs")
-            elif packed and ref_err is None and sharing(got, calls) != sharing(calls, calls):
-                disagree(f"{name} seed {seed} calls {done}: tuple sharing differs from the front's")
+                disagree(f"{mode} seed {seed} calls {done}: call {at} differs")
+            elif mode != "pickled" and ref_err is None and sharing(got, fed) != sharing(fed, fed):
+                disagree(f"{mode} seed {seed} calls {done}: tuple sharing differs from the front's")
         done += k
     for _ in range(n // 4):
         _mutated(rng, disagree)

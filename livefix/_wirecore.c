@@ -26,43 +26,6 @@
  * runs while the front packs (the values are exact builtins; pickling `others` is the caller's).
  */
 #include "_wirecore.h"
-#include "_corekit.h" /* kit_slot_class */
-
-/* The class the slot descriptors name (livefix/_corekit.h, kit_slot_class: make()'s checks) and
- * their offsets, each slot once; 0, or -1 with TypeError. */
-int shape_of(PyObject *slots, Shape *sh)
-{
-    if (!PyTuple_CheckExact(slots) || PyTuple_GET_SIZE(slots) > MAX_SLOTS) {
-        PyErr_SetString(PyExc_TypeError, "wire: a tuple of at most 64 slot descriptors");
-        return -1;
-    }
-    PyTypeObject *tp = kit_slot_class(slots, "wire");
-    if (tp == NULL) return -1;
-    Py_ssize_t n = PyTuple_GET_SIZE(slots);
-    for (Py_ssize_t i = 0; i < n; i++) {
-        sh->off[i] = ((PyMemberDescrObject *)PyTuple_GET_ITEM(slots, i))->d_member->offset;
-        for (Py_ssize_t j = 0; j < i; j++)
-            if (sh->off[j] == sh->off[i]) {
-                PyErr_Format(PyExc_TypeError, "wire: slot %zd of %s given twice", i, tp->tp_name);
-                return -1;
-            }
-    }
-    sh->n = n;
-    sh->tp = (PyTypeObject *)Py_NewRef(tp);
-    return 0;
-}
-
-/* a new instance with every slot set from vals (references stolen, all non-NULL) */
-PyObject *shape_new(Shape *sh, PyObject **vals)
-{
-    PyObject *obj = sh->tp->tp_alloc(sh->tp, 0);
-    if (obj == NULL) {
-        for (Py_ssize_t i = 0; i < sh->n; i++) Py_DECREF(vals[i]);
-        return NULL;
-    }
-    for (Py_ssize_t i = 0; i < sh->n; i++) SLOT(obj, sh, i) = vals[i];
-    return obj;
-}
 
 /* ---- the front: Packer ---- */
 typedef struct {
@@ -112,6 +75,13 @@ typedef struct {
     PyObject_HEAD
     Shape ep, item;
     PyObject *prev[MAX_SLOTS]; /* the last epoch's value of each field when it was a tuple (owned) */
+    /* As a sink (the Analyzer's four feeding methods): the calls packed as they come, until take().
+     * full() is called when an on_epoch brings the epochs to `batch` (0: never). A call that cannot
+     * be packed is dropped and its error kept for take(), as the pickled path meets it at flush;
+     * the stream then starts again with no previous epoch (a new Reader on the other side). */
+    Buf acc;
+    PyObject *acc_others, *full, *err_type, *err_value, *err_tb;
+    Py_ssize_t epochs, batch;
 } Packer;
 
 static int pack_value(Packer *s, Buf *b, PyObject *others, PyObject *v, PyObject *refs, int depth);
@@ -267,16 +237,101 @@ done:
     return out;
 }
 
+/* ---- the sink ---- */
+
+/* one call into the sink: a record of `kind` with its arguments, or (kind R_EPOCH) an epoch */
+static PyObject *sink_record(Packer *s, int kind, PyObject *const *args, Py_ssize_t nargs, Py_ssize_t want,
+                             const char *name)
+{
+    if (nargs != want) {
+        PyErr_Format(PyExc_TypeError, "%s() takes %zd arguments (%zd given)", name, want, nargs);
+        return NULL;
+    }
+    size_t mark = s->acc.len;
+    Py_ssize_t omark = PyList_GET_SIZE(s->acc_others);
+    int r = 0;
+    if (s->err_type != NULL) {
+        r = 0; /* the batch is lost already: take() raises */
+    } else if (kind == R_EPOCH && Py_IS_TYPE(args[0], s->ep.tp)) {
+        r = pack_epoch(s, &s->acc, s->acc_others, args[0]);
+    } else if (kind == R_EPOCH) { /* not an Epoch: sent whole, as the pickled path does */
+        r = buf_u8(&s->acc, R_OTHER) < 0 || PyList_Append(s->acc_others, args[0]) < 0 ? -1 : 0;
+    } else {
+        r = buf_u8(&s->acc, (unsigned)kind);
+        for (Py_ssize_t i = 0; r == 0 && i < nargs; i++) r = pack_value(s, &s->acc, s->acc_others, args[i], NULL, 1);
+    }
+    if (r < 0) {
+        s->acc.len = mark;
+        PyErr_Fetch(&s->err_type, &s->err_value, &s->err_tb);
+        PyErr_NormalizeException(&s->err_type, &s->err_value, &s->err_tb);
+        if (PyList_SetSlice(s->acc_others, omark, PyList_GET_SIZE(s->acc_others), NULL) < 0) return NULL;
+    }
+    if (kind == R_EPOCH && ++s->epochs >= s->batch && s->batch > 0 && s->full != NULL)
+        return PyObject_CallNoArgs(s->full);
+    Py_RETURN_NONE;
+}
+
+static PyObject *sink_chunk(Packer *s, PyObject *const *args, Py_ssize_t nargs)
+{
+    return sink_record(s, R_CHUNK, args, nargs, 3, "on_chunk");
+}
+
+static PyObject *sink_rejected(Packer *s, PyObject *const *args, Py_ssize_t nargs)
+{
+    return sink_record(s, R_REJECTED, args, nargs, 3, "on_rejected");
+}
+
+static PyObject *sink_event(Packer *s, PyObject *ev) { return sink_record(s, R_EVENT, &ev, 1, 1, "on_event"); }
+
+static PyObject *sink_epoch(Packer *s, PyObject *ep) { return sink_record(s, R_EPOCH, &ep, 1, 1, "on_epoch"); }
+
+PyDoc_STRVAR(take_doc, "take() -> (bytes, others): the calls since the last take, packed (the kept error, if any)");
+
+static PyObject *sink_take(Packer *s, PyObject *unused)
+{
+    (void)unused;
+    if (s->err_type != NULL) { /* the batch is lost: what follows must not lean on its epochs */
+        s->acc.len = 0;
+        s->epochs = 0;
+        for (int i = 0; i < MAX_SLOTS; i++) Py_CLEAR(s->prev[i]);
+        PyErr_Restore(s->err_type, s->err_value, s->err_tb); /* references handed over */
+        s->err_type = s->err_value = s->err_tb = NULL;
+        Py_SETREF(s->acc_others, PyList_New(0));
+        return NULL;
+    }
+    PyObject *fresh = PyList_New(0), *data = NULL, *out = NULL;
+    if (fresh != NULL) data = PyBytes_FromStringAndSize(s->acc.p, (Py_ssize_t)s->acc.len);
+    if (data != NULL) out = PyTuple_Pack(2, data, s->acc_others);
+    Py_XDECREF(data);
+    if (out == NULL) {
+        Py_XDECREF(fresh);
+        return NULL;
+    }
+    Py_SETREF(s->acc_others, fresh);
+    s->acc.len = 0;
+    s->epochs = 0;
+    return out;
+}
+
+static PyObject *sink_pending(Packer *s, void *closure)
+{
+    (void)closure;
+    return PyBool_FromLong(s->acc.len > 0 || s->err_type != NULL);
+}
+
 static PyObject *packer_new(PyTypeObject *type, PyObject *args, PyObject *kwds)
 {
-    PyObject *eps, *items;
-    if (!PyArg_ParseTuple(args, "OO:Packer", &eps, &items)) return NULL;
+    PyObject *eps, *items, *full = Py_None;
+    Py_ssize_t batch = 0;
+    if (!PyArg_ParseTuple(args, "OO|nO:Packer", &eps, &items, &batch, &full)) return NULL;
     Packer *s = (Packer *)type->tp_alloc(type, 0);
     if (s == NULL) return NULL;
-    if (shape_of(eps, &s->ep) < 0 || shape_of(items, &s->item) < 0) {
+    if (shape_of(eps, &s->ep) < 0 || shape_of(items, &s->item) < 0 || (s->acc_others = PyList_New(0)) == NULL) {
         Py_DECREF(s);
         return NULL;
     }
+    s->batch = batch;
+    s->full = full == Py_None ? NULL : Py_NewRef(full);
     (void)kwds;
     return (PyObject *)s;
 }
@@ -286,6 +341,11 @@ static int packer_traverse(Packer *s, visitproc visit, void *arg)
     Py_VISIT(s->ep.tp);
     Py_VISIT(s->item.tp);
     for (int i = 0; i < MAX_SLOTS; i++) Py_VISIT(s->prev[i]);
+    Py_VISIT(s->acc_others);
+    Py_VISIT(s->full);
+    Py_VISIT(s->err_type);
+    Py_VISIT(s->err_value);
+    Py_VISIT(s->err_tb);
     return 0;
 }
 
@@ -294,6 +354,11 @@ static int packer_clear(Packer *s)
     Py_CLEAR(s->ep.tp);
     Py_CLEAR(s->item.tp);
     for (int i = 0; i < MAX_SLOTS; i++) Py_CLEAR(s->prev[i]);
+    Py_CLEAR(s->acc_others);
+    Py_CLEAR(s->full);
+    Py_CLEAR(s->err_type);
+    Py_CLEAR(s->err_value);
+    Py_CLEAR(s->err_tb);
     return 0;
 }
 
@@ -301,37 +366,34 @@ static void packer_dealloc(Packer *s)
 {
     PyObject_GC_UnTrack(s);
     packer_clear(s);
+    PyMem_Free(s->acc.p);
     Py_TYPE(s)->tp_free((PyObject *)s);
 }
 
-static PyMethodDef packer_methods[] = {{"pack", (PyCFunction)packer_pack, METH_O, pack_doc}, {NULL, NULL, 0, NULL}};
+#define FAST(f) (PyCFunction)(void (*)(void))(f)
+static PyMethodDef packer_methods[] = {
+    {"pack", (PyCFunction)packer_pack, METH_O, pack_doc},
+    {"on_chunk", FAST(sink_chunk), METH_FASTCALL, "on_chunk(mono, wall, nbytes): packed into the sink"},
+    {"on_rejected", FAST(sink_rejected), METH_FASTCALL, "on_rejected(reason, mono, wall): packed into the sink"},
+    {"on_event", (PyCFunction)sink_event, METH_O, "on_event(ev): packed into the sink"},
+    {"on_epoch", (PyCFunction)sink_epoch, METH_O, "on_epoch(ep): packed into the sink; full() at `batch` epochs"},
+    {"take", (PyCFunction)sink_take, METH_NOARGS, take_doc},
+    {NULL, NULL, 0, NULL}};
 
-static PyTypeObject PackerType = {
+static PyGetSetDef packer_getset[] = {
+    {"pending", (getter)sink_pending, NULL, "whether take() has anything (calls, or a kept error)", NULL},
+    {NULL, NULL, NULL, NULL, NULL}};
+
+PyTypeObject PackerType = {
     PyVarObject_HEAD_INIT(NULL, 0).tp_name = "livefix._wirecore.Packer",
     .tp_basicsize = sizeof(Packer),
     .tp_flags = Py_TPFLAGS_DEFAULT | Py_TPFLAGS_HAVE_GC,
-    .tp_doc = "Packer(epoch_slots, item_slots): the front's half of the packed wire.",
+    .tp_doc = "Packer(epoch_slots, item_slots, batch=0, full=None): the front's half of the packed wire.",
     .tp_new = packer_new,
     .tp_traverse = (traverseproc)packer_traverse,
     .tp_clear = (inquiry)packer_clear,
     .tp_dealloc = (destructor)packer_dealloc,
     .tp_methods = packer_methods,
+    .tp_getset = packer_getset,
 };
 
-static struct PyModuleDef MODULE = {PyModuleDef_HEAD_INIT, "livefix._wirecore",
-                                    "The packed wire of livefix.parallel (C twin of its pickled records).", -1,
-                                    NULL, NULL, NULL, NULL, NULL};
-
-PyMODINIT_FUNC PyInit__wirecore(void)
-{
-    if (PyType_Ready(&PackerType) < 0 || PyType_Ready(&ReaderType) < 0) return NULL;
-    PyObject *m = PyModule_Create(&MODULE);
-    if (m == NULL) return NULL;
-    if (PyModule_AddIntConstant(m, "WIRE_VERSION", WIRE_VERSION) < 0
-        || PyModule_AddObjectRef(m, "Packer", (PyObject *)&PackerType) < 0
-        || PyModule_AddObjectRef(m, "Reader", (PyObject *)&ReaderType) < 0) {
-        Py_DECREF(m);
-        return NULL;
-    }
-    return m;
-}

@@ -39,6 +39,6 @@ typedef struct {
 
 WIRE_HIDDEN int shape_of(PyObject *slots, Shape *sh);
 WIRE_HIDDEN PyObject *shape_new(Shape *sh, PyObject **vals);
-WIRE_HIDDEN extern PyTypeObject ReaderType;
+WIRE_HIDDEN extern PyTypeObject ReaderType, PackerType;
 
 #endif

@@ -1,10 +1,50 @@
 /* livefix._wirecore, the child's half: Reader, which makes the analyzer calls a packed batch holds
- * (the overview is in _wirecore.c). Every length is checked against the bytes left, every index
+ * (the overview is in _wirecore.c); and what both halves use: the slotted classes' shapes, and the
+ * module. Every length is checked against the bytes left, every index
  * against the list or tuple it names; nesting stops at MAX_DEPTH; anything else is a ValueError.
  */
 #include "_wirecore.h"
 
+#include "_corekit.h" /* kit_slot_class */
+
 static const char *const METHOD[4] = {"on_chunk", "on_rejected", "on_event", "on_epoch"};
+
+/* The class the slot descriptors name (livefix/_corekit.h, kit_slot_class: make()'s checks) and
+ * their offsets, each slot once; 0, or -1 with TypeError. */
+int shape_of(PyObject *slots, Shape *sh)
+{
+    if (!PyTuple_CheckExact(slots) || PyTuple_GET_SIZE(slots) > MAX_SLOTS) {
+        PyErr_SetString(PyExc_TypeError, "wire: a tuple of at most 64 slot descriptors");
+        return -1;
+    }
+    PyTypeObject *tp = kit_slot_class(slots, "wire");
+    if (tp == NULL) return -1;
+    Py_ssize_t n = PyTuple_GET_SIZE(slots);
+    for (Py_ssize_t i = 0; i < n; i++) {
+        sh->off[i] = ((PyMemberDescrObject *)PyTuple_GET_ITEM(slots, i))->d_member->offset;
+        for (Py_ssize_t j = 0; j < i; j++)
+            if (sh->off[j] == sh->off[i]) {
+                PyErr_Format(PyExc_TypeError, "wire: slot %zd of %s given twice", i, tp->tp_name);
+                return -1;
+            }
+    }
+    sh->n = n;
+    sh->tp = (PyTypeObject *)Py_NewRef(tp);
+    return 0;
+}
+
+/* a new instance with every slot set from vals (references stolen, all non-NULL) */
+PyObject *shape_new(Shape *sh, PyObject **vals)
+{
+    PyObject *obj = sh->tp->tp_alloc(sh->tp, 0);
+    if (obj == NULL) {
+        for (Py_ssize_t i = 0; i < sh->n; i++) Py_DECREF(vals[i]);
+        return NULL;
+    }
+    for (Py_ssize_t i = 0; i < sh->n; i++) SLOT(obj, sh, i) = vals[i];
+    return obj;
+}
+
 
 typedef struct {
     PyObject_HEAD
@@ -259,3 +299,20 @@ PyTypeObject ReaderType = {
     .tp_methods = reader_methods,
 };
 
+static struct PyModuleDef MODULE = {PyModuleDef_HEAD_INIT, "livefix._wirecore",
+                                    "The packed wire of livefix.parallel (C twin of its pickled records).", -1,
+                                    NULL, NULL, NULL, NULL, NULL};
+
+PyMODINIT_FUNC PyInit__wirecore(void)
+{
+    if (PyType_Ready(&PackerType) < 0 || PyType_Ready(&ReaderType) < 0) return NULL;
+    PyObject *m = PyModule_Create(&MODULE);
+    if (m == NULL) return NULL;
+    if (PyModule_AddIntConstant(m, "WIRE_VERSION", WIRE_VERSION) < 0
+        || PyModule_AddObjectRef(m, "Packer", (PyObject *)&PackerType) < 0
+        || PyModule_AddObjectRef(m, "Reader", (PyObject *)&ReaderType) < 0) {
+        Py_DECREF(m);
+        return NULL;
+    }
+    return m;
+}

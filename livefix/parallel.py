@@ -38,7 +38,7 @@ from typing import Any
 from livefix.analysis.config import AnalysisConfig
 from livefix.contracts import Analysis
 from livefix.state.epoch import Epoch
-from livefix.wire import CHUNK, EVENT, REJECTED, Replayer, encode, packer
+from livefix.wire import CHUNK, EVENT, REJECTED, Replayer, encode, sink
 
 BATCH_EPOCHS = 256  # epochs per message: large enough to amortise pickling, small enough to stream
 STALL_S = 120.0  # no progress writing to / reading from a live child for this long = stuck
@@ -136,7 +136,12 @@ class AnalysisProcess:
         self._epochs = 0
         self._table: dict[int, tuple[tuple, int]] = {}
         self._next_id = [0]
-        self._pack = packer(native)  # None: pickled records (native as livefix.corepick.pick_core)
+        # the packed wire: the C sink takes the four calls itself (None: pickled records; native as
+        # livefix.corepick.pick_core says)
+        self._sink = sink(batch_epochs, self.flush, native)
+        if self._sink is not None:
+            self.on_chunk, self.on_rejected = self._sink.on_chunk, self._sink.on_rejected  # type: ignore[method-assign]
+            self.on_event, self.on_epoch = self._sink.on_event, self._sink.on_epoch  # type: ignore[method-assign]
         self._closed = False
         c_read, f_write = os.pipe()
         f_read, c_write = os.pipe()
@@ -173,12 +178,12 @@ class AnalysisProcess:
             self.flush()
 
     def flush(self) -> None:
-        if not self._calls:
+        if not (self._sink.pending if self._sink is not None else self._calls):
             return
         t0 = time.thread_time()
         try:
-            if self._pack is not None:
-                data = _dump(M_PACKED, self._pack(self._calls))
+            if self._sink is not None:
+                data = _dump(M_PACKED, self._sink.take())
             else:
                 data = _dump(M_BATCH, encode(self._calls, self._table, self._next_id))
         except (pickle.PicklingError, TypeError, AttributeError) as exc:  # e.g. an odd value in Event.data

@@ -59,6 +59,15 @@ def packer(native: bool | None = None) -> Callable[[list], tuple[bytes, list]] |
     return None if core is None else core.Packer(EPOCH_SLOTS, SATOBS_SLOTS).pack
 
 
+def sink(batch: int, full: Callable[[], None], native: bool | None = None) -> Any | None:
+    """The front's recorder of the Analyzer calls in C, or None for the pickled wire: its on_chunk,
+    on_rejected, on_event and on_epoch pack each call as it comes (no Python frame per call), full()
+    is called when on_epoch brings the epochs to `batch`, and take() -> (bytes, others) hands over
+    what came since the last take (raising the error of a call that could not be packed)."""
+    core = wire_core(native)
+    return None if core is None else core.Packer(EPOCH_SLOTS, SATOBS_SLOTS, batch, full)
+
+
 def encode(calls: list, table: dict[int, tuple[tuple, int]], next_id: list[int]) -> list[tuple]:
     """Recorded calls -> picklable records. `table` maps id(sats) -> (sats, sats id) and holds the
     tuples so their ids stay unique; `next_id` is a one-item counter. Both persist across batches."""

@@ -24,7 +24,7 @@ from twinkit import bench_module
 from livefix.pipeline import Pipeline
 from livefix.record.reader import RecordingReader
 from livefix.state.epoch import EPOCH_FIELDS, Epoch, Event, make_epoch, make_satobs
-from livefix.wire import CHUNK, EVENT, REJECTED, Replayer, packer
+from livefix.wire import CHUNK, EVENT, REJECTED, Replayer, packer, sink
 
 core = pytest.importorskip("livefix._wirecore", reason="livefix._wirecore is not built")
 fw = bench_module("fuzz_wire")
@@ -48,7 +48,7 @@ def test_a_real_run_arrives_as_the_front_made_it(path: Path) -> None:
     eps = [c for c in calls if type(c) is Epoch]
     assert len(eps) > 100
     cuts = list(range(37, len(calls), 37))  # odd batch size: batches end anywhere
-    got, err = fw.through(calls, cuts, packed=True)
+    got, err = fw.through(calls, cuts, "packed")
     assert err is None
     assert len(got) == len(calls) and all(fw.same(a, b) for a, b in zip(got, calls, strict=True))
     assert fw.sharing(got, calls) == fw.sharing(calls, calls)
@@ -60,8 +60,8 @@ def test_a_real_run_arrives_as_the_front_made_it(path: Path) -> None:
 def test_both_wires_give_the_same_calls_on_a_real_run() -> None:
     calls = _front_calls(RECORDINGS[0])
     cuts = list(range(256, len(calls), 256))
-    packed, e1 = fw.through(calls, cuts, packed=True)
-    pickled, e2 = fw.through(calls, cuts, packed=False)
+    packed, e1 = fw.through(calls, cuts, "packed")
+    pickled, e2 = fw.through(calls, cuts, "pickled")
     assert e1 is e2 is None
     assert all(fw.same(a, b) for a, b in zip(packed, pickled, strict=True))
 
@@ -93,7 +93,7 @@ def test_an_odd_field_value_arrives_exactly(value: object) -> None:
     for field in ("lat", "num_sv", "sats", "used_prns", "date_known", "datum"):
         calls = [_one_epoch(**{field: value}), (CHUNK, value, 1.0, 2), (REJECTED, "x", value, 3.0),
                  (EVENT, value)]
-        got, err = fw.through(calls, [], packed=True)
+        got, err = fw.through(calls, [], "packed")
         assert err is None
         assert all(fw.same(a, b) for a, b in zip(got, calls, strict=True)), field
 
@@ -103,7 +103,7 @@ def test_satellites_of_the_previous_tuple_are_the_same_objects() -> None:
     new = make_satobs(("E", 3, "7", 10, 200, 30.0, False, 0.0))
     moved = (new, *sats[2:], sats[0])  # inserted, dropped, moved to the end
     calls = [_one_epoch(sats=sats), _one_epoch(sats=moved), _one_epoch(sats=moved)]
-    got, err = fw.through(calls, [1], packed=True)
+    got, err = fw.through(calls, [1], "packed")
     assert err is None
     a, b, c = got
     assert b.sats is c.sats and a.sats is not b.sats
@@ -154,7 +154,7 @@ def test_odd_records_meet_the_reference_replayers_error() -> None:
     for rec in [(CHUNK, 1.0), (EVENT,), (7, 1)]:
         calls = [(CHUNK, 0.0, 1.0, 2), rec]
         ref = fw.direct(calls)
-        got = fw.through(calls, [], packed=True)
+        got = fw.through(calls, [], "packed")
         assert ref[1] is not None and got[1] == ref[1]
         assert got[0] == ref[0] == calls[:1]
 
@@ -164,6 +164,59 @@ def test_an_event_goes_pickled_beside_the_bytes() -> None:
     calls = [_one_epoch(), (EVENT, ev), _one_epoch()]
     data, others = packer(True)(calls)  # type: ignore[misc]
     assert others == [ev]
-    got, err = fw.through(calls, [], packed=True)
+    got, err = fw.through(calls, [], "packed")
     assert err is None and got[1] == (EVENT, ev)
     assert pickle.loads(pickle.dumps(others, 5)) == [ev]
+
+
+def _feed(rec: object, calls: list) -> None:
+    feed = {CHUNK: rec.on_chunk, REJECTED: rec.on_rejected, EVENT: rec.on_event}  # type: ignore[attr-defined]
+    for c in calls:
+        if type(c) is Epoch:
+            rec.on_epoch(c)  # type: ignore[attr-defined]
+        else:
+            feed[c[0]](*c[1:])
+
+
+def test_the_sink_packs_what_the_packer_packs_from_the_list() -> None:
+    calls = _front_calls(RECORDINGS[0])
+    rec, pack = sink(0, lambda: None, True), packer(True)
+    assert rec is not None and pack is not None
+    for i in range(0, len(calls), 300):
+        _feed(rec, calls[i:i + 300])
+        assert rec.pending
+        assert rec.take() == pack(calls[i:i + 300])
+    assert not rec.pending
+
+
+def test_the_sink_calls_full_when_the_batch_is_reached() -> None:
+    taken: list = []
+    rec = sink(3, lambda: taken.append(rec.take()), True)
+    assert rec is not None
+    calls = [(CHUNK, float(i), 2.0, 10) if i % 2 else _one_epoch(mono=float(i)) for i in range(14)]  # 7 epochs
+    _feed(rec, calls)
+    assert len(taken) == 2  # after the 3rd and the 6th epoch
+    sink_out = fw.Sink()
+    rep = Replayer(sink_out)
+    for batch in [*taken, rec.take()]:
+        rep.run_packed(*batch)
+    assert all(fw.same(a, b) for a, b in zip(sink_out.calls, calls, strict=True))
+
+
+def test_a_call_the_sink_cannot_pack_is_raised_by_take() -> None:
+    rec = sink(0, lambda: None, True)
+    assert rec is not None
+    rec.on_chunk(1.0, 2.0, 3)
+    assert rec.on_epoch(Epoch.__new__(Epoch)) is None  # no slot set: kept, not raised in the pipeline
+    rec.on_chunk(4.0, 5.0, 6)  # dropped: the batch is lost already
+    assert rec.pending
+    with pytest.raises(AttributeError, match="unset slot"):
+        rec.take()
+    assert not rec.pending  # and it goes on afresh
+    rec.on_epoch(_one_epoch())
+    data, others = rec.take()
+    out = fw.Sink()
+    Replayer(out).run_packed(data, others)
+    assert len(out.calls) == 1 and fw.same(out.calls[0], _one_epoch())
+    with pytest.raises(TypeError):
+        rec.on_chunk(1.0)  # the method's own arity, as a Python method's
