@@ -159,7 +159,9 @@ def time_command(path: Path, jobs: str) -> tuple[float, float, bytes]:
 
 
 def pickling_cost(path: Path) -> tuple[float, float, int]:
-    """(front CPU s encoding + pickling, front CPU s in all, bytes sent) of a 2-process run here."""
+    """(front CPU s encoding + pickling, front CPU s in all, bytes sent) of a 2-process run here. With
+    the packed wire's sink the packing happens in the calls themselves: only the batches' take and
+    pickling are counted then."""
     import threading
 
     from livefix.parallel import AnalysisProcess
@@ -201,7 +203,7 @@ def split_figures(minutes: float, rate: int, repeat: int) -> None:
         wall, cpu = best[jobs]
         print(f"report --json, {label}: {wall:6.2f} s wall, {cpu:6.2f} s CPU, {(wall - start) * 1e6 / nlines:5.2f} "
               f"us/line wall; 24 h at {rate} Hz ({nlines * day:,.0f} lines) about {start + (wall - start) * day:.0f} s")
-    print(f"front pickling (encode + dumps): {pick:.2f} s of {front:.2f} s front CPU = "
+    print(f"front pickling (encode or take + dumps): {pick:.2f} s of {front:.2f} s front CPU = "
           f"{pick * 1e6 / nlines:.2f} us/line; {sent / 1e6:.1f} MB sent ({sent / nlines:.0f} B/line)")
     print(f"identical JSON 1 vs 2 processes: {'yes' if len(outs) == 1 else 'NO'}")
     ratio = best["1"][0] / best["2"][0]

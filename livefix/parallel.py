@@ -129,7 +129,8 @@ class AnalysisProcess:
                  stall_s: float = STALL_S, native: bool | None = None) -> None:
         self.batch_epochs = batch_epochs
         self.stall_s = stall_s
-        self.pickle_s = 0.0  # front CPU seconds spent encoding and pickling (for the bench)
+        # front CPU seconds spent encoding (or, with the sink, taking) and pickling batches (for the bench)
+        self.pickle_s = 0.0
         self.sent_bytes = 0
         self._calls: list = []
         self._append = self._calls.append
