@@ -88,7 +88,7 @@ LATER = (
     ("GSV part satellites", "parts", "livefix.state.gsv", "_gsvcore", _plain(parts_diff), 0.5, 100_000),
     ("record scan", "recordings", "livefix.record.reader", "_reccore", _handed(reader_diff), 0.05, 10_000),
     ("SignalStats step", "epochs", "livefix.analysis.signal", "_sigcore", _handed(signal_step_diff), 0.5, 5_000),
-    ("packed wire", "calls", "livefix.wire", "_wirecore", _plain(wire_diff), 0.1, 100_000),
+    ("packed wire", "calls", "livefix.wire", "_wirecore", _plain(wire_diff), 0.5, 100_000),
 )
 
 
