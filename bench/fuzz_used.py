@@ -225,6 +225,11 @@ def load_used_core(path: str) -> None:
     mod = load_ext("livefix.state._usedcore", path)
     livefix.state._usedcore = mod  # type: ignore[attr-defined]
     used._CORE = mod
+    # the state model's core hands a tracker of these classes the last epoch's set again: this one too
+    used.TRACKER_TYPES = (used.UsedTracker, mod.UsedTracker)
+    from livefix.state import model
+
+    model._CORE_HELPERS = (*model._CORE_HELPERS[:-1], used.TRACKER_TYPES)
 
 
 if __name__ == "__main__":

@@ -132,12 +132,18 @@ static int core_traverse(Core *s, visitproc visit, void *arg)
         Py_VISIT(s->keys[i].key);
     }
     for (int i = 0; i < s->nsent; i++) Py_VISIT(s->sent[i]);
+    for (int i = 0; i < MAX_GSA_SEQ; i++) {
+        Py_VISIT(s->gsa_seq[i]);
+        Py_VISIT(s->gsa_prev[i]);
+    }
+    Py_VISIT(s->prev_used);
     return 0;
 }
 
 static int core_clear(Core *s)
 {
     st_open_clear(s);
+    st_used_forget(s);
     s->mw_stamp = 0;
     s->unknown_at = 0;
     for (int i = 0; i < 4; i++) s->cstamp[i] = 0;
@@ -181,8 +187,9 @@ static PyObject *core_new(PyTypeObject *type, PyObject *args, PyObject *kwds)
         PyErr_Format(PyExc_TypeError, "EpochCore: %d helpers, %zd given", NHELP, PyTuple_GET_SIZE(calls));
         return NULL;
     }
-    if (!PyType_Check(PyTuple_GET_ITEM(calls, C_DECODED)) || !PyFrozenSet_CheckExact(PyTuple_GET_ITEM(calls, C_TIMED))) {
-        PyErr_SetString(PyExc_TypeError, "EpochCore: the Decoded type and the TIMED frozenset expected");
+    if (!PyType_Check(PyTuple_GET_ITEM(calls, C_DECODED)) || !PyFrozenSet_CheckExact(PyTuple_GET_ITEM(calls, C_TIMED))
+        || !PyTuple_CheckExact(PyTuple_GET_ITEM(calls, C_TRACKERS))) {
+        PyErr_SetString(PyExc_TypeError, "EpochCore: the Decoded type, the TIMED frozenset and a tuple of tracker types expected");
         return NULL;
     }
     Core *s = (Core *)type->tp_alloc(type, 0);
@@ -190,6 +197,7 @@ static PyObject *core_new(PyTypeObject *type, PyObject *args, PyObject *kwds)
     for (int i = 0; i < NHELP; i++) s->call[i] = Py_NewRef(PyTuple_GET_ITEM(calls, i));
     s->model = Py_NewRef(model);
     s->tod_of = Py_NewRef(Py_None);
+    s->gsa_prev_n = -1;
     if (kit_slot_offsets(s->call[C_DECODED], slots, 4, s->off, "EpochCore: %s is not a slot of %R") < 0
         || (s->dict = PyObject_GenericGetDict(model, NULL)) == NULL || !PyDict_CheckExact(s->dict)
         || (s->used = model_attr(s->dict, "_used")) == NULL
@@ -213,8 +221,15 @@ static PyMethodDef core_methods[] = {
     {"close", (PyCFunction)(void (*)(void))core_close, METH_FASTCALL, "close() -> the open epoch as an Epoch"},
     {NULL, NULL, 0, NULL}};
 
+static PyObject *get_used_reused(Core *s, void *closure)
+{
+    (void)closure;
+    return PyLong_FromUnsignedLongLong(s->used_reused);
+}
+
 static PyGetSetDef core_getset[] = {
     {"open", (getter)get_open, NULL, "an epoch is being assembled", NULL},
+    {"used_reused", (getter)get_used_reused, NULL, "epochs handed the previous epoch's used set (tests)", NULL},
     {NULL, NULL, NULL, NULL, NULL}};
 
 PyDoc_STRVAR(core_doc,

@@ -25,6 +25,7 @@
 #define HALF_DAY_S 43200.0   /* livefix.state.model._HALF_DAY */
 #define KNOT_MPS (1852.0 / 3600.0) /* livefix.state.model.KNOT_MPS, the same division */
 #define ST_KINDS 16          /* msg ids whose dispatch is remembered (a receiver sends a handful) */
+#define MAX_GSA_SEQ 16       /* GSA lines of an epoch remembered for the used set's reuse (one per system) */
 
 /* A timed sentence's key (talker + msg id): the two strings when both are exact str (the
  * concatenation is then never made), else the concatenation itself in `key`. */
@@ -34,7 +35,8 @@ typedef struct { PyObject *talker, *mid, *key; } Key;
  * the model's collaborators and their bound methods (fetched from the model's dict when first used
  * and again whenever the model holds another collaborator: st_method, st_collab). */
 enum {
-    C_SOLUTION_GSA, C_QUALITY, C_DATUM, C_TOD_OF, C_MAKE_EPOCH, C_DATE, C_ONE_DAY, C_TIMED, C_DECODED, NHELP,
+    C_SOLUTION_GSA, C_QUALITY, C_DATUM, C_TOD_OF, C_MAKE_EPOCH, C_DATE, C_ONE_DAY, C_TIMED, C_DECODED, C_TRACKERS,
+    NHELP,
     C_GSV = NHELP, C_GSA, C_SKY, C_CLOCK,
     C_GSV_ADD, C_GSA_ADD, C_GSA_NOTE, C_GSA_CLOSE, C_SKY_REPLACE, C_SKY_EXPIRE, C_SKY_IN_VIEW, C_SKY_OBS,
     C_CLOCK_RESOLVE, NCALL
@@ -53,7 +55,21 @@ typedef struct {
     /* the open epoch (model._Open) */
     int open, o_has_tod, o_has_date_tod, nsent;
     double o_tod, o_date_tod;
-    PyObject *o_mono, *o_wall, *o_by_type, *o_used, *o_date;
+    PyObject *o_mono, *o_wall, *o_by_type, *o_used, *o_date; /* o_used NULL: not made yet (see below) */
+    /* The used set's reuse (st_join_used, st_take_used, st_keep_used). At 1-20 Hz the GSA lines repeat
+     * epoch after epoch and the tracker hands back the very same placed tuples, so the epoch's set
+     * would be built again, element by element, equal to the last one. While an epoch's placed
+     * tuples are, one by one, the objects the previous epoch joined, its set is not made; if all of
+     * them are, the previous epoch's set object is handed to the tracker again. That is exact when
+     * the set holds just the union of those tuples: only this core holds it (refcount 1), the
+     * tracker's close() added nothing to it (its size then), and the tracker is of a class that
+     * never takes elements out (C_TRACKERS). Otherwise the set is made from the remembered tuples,
+     * in their order, as the reference made it. */
+    PyObject *gsa_seq[MAX_GSA_SEQ], *gsa_prev[MAX_GSA_SEQ]; /* owned */
+    int gsa_n, gsa_prev_n; /* tuples joined this epoch (may pass MAX_GSA_SEQ: not remembered) / last epoch (-1: none) */
+    PyObject *prev_used;   /* the last epoch's set (owned) or NULL */
+    Py_ssize_t prev_used_len;
+    unsigned long long used_reused; /* epochs given the previous set (tests) */
     Key *keys;
     Py_ssize_t nkeys, keys_cap;
     PyObject *sent[MAX_SENTENCES];
@@ -110,9 +126,18 @@ ST_HIDDEN int st_on_gst(Core *s, PyObject *msg);
 ST_HIDDEN int st_on_gsa(Core *s, PyObject *msg);
 ST_HIDDEN int st_on_gsv(Core *s, PyObject *msg, PyObject *mono, PyObject *wall);
 
+/* _statecore_add.c: op.used.update(placed), made or deferred; 0 or -1 with an error set */
+ST_HIDDEN int st_join_used(Core *s, PyObject *placed);
+/* op.used for _close, a new reference: the set made, the previous epoch's set when it may serve, or one
+ * made now from the remembered tuples; NULL with an error set */
+ST_HIDDEN PyObject *st_take_used(Core *s);
+/* after the tracker's close(used) (len: the set's size handed over): remember used and the epoch's n
+ * tuples (seq; those kept are moved out) for the next epoch when the set may serve again */
+ST_HIDDEN int st_keep_used(Core *s, PyObject *used, Py_ssize_t len, PyObject **seq, int n);
 /* _statecore_close.c: model._close(); a new Epoch */
 ST_HIDDEN int st_close_init(void);
 ST_HIDDEN PyObject *st_close(Core *s);
 ST_HIDDEN void st_open_clear(Core *s);
+ST_HIDDEN void st_used_forget(Core *s); /* no previous set to reuse */
 
 #endif

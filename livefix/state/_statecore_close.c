@@ -35,6 +35,8 @@ void st_open_clear(Core *s)
     Py_CLEAR(s->o_by_type);
     Py_CLEAR(s->o_used);
     Py_CLEAR(s->o_date);
+    for (int i = 0; i < MAX_GSA_SEQ; i++) Py_CLEAR(s->gsa_seq[i]);
+    s->gsa_n = 0;
     for (Py_ssize_t i = 0; i < s->nkeys; i++) {
         Py_CLEAR(s->keys[i].talker);
         Py_CLEAR(s->keys[i].mid);
@@ -282,8 +284,15 @@ PyObject *st_close(Core *s)
         return NULL;
     }
     /* op, self._open = self._open, None */
-    PyObject *mono = s->o_mono, *wall = s->o_wall, *bt = s->o_by_type, *used = s->o_used, *date = s->o_date;
-    s->o_mono = s->o_wall = s->o_by_type = s->o_used = s->o_date = NULL;
+    PyObject *used = st_take_used(s), *seq[MAX_GSA_SEQ]; /* (the set before the tuples it reads are cleared) */
+    int nseq = s->gsa_n;
+    for (int i = 0; i < MAX_GSA_SEQ; i++) {
+        seq[i] = s->gsa_seq[i];
+        s->gsa_seq[i] = NULL;
+    }
+    s->gsa_n = 0;
+    PyObject *mono = s->o_mono, *wall = s->o_wall, *bt = s->o_by_type, *date = s->o_date;
+    s->o_mono = s->o_wall = s->o_by_type = s->o_date = NULL;
     int has_tod = s->o_has_tod, has_dt = s->o_has_date_tod;
     double tod = s->o_tod, dt = s->o_date_tod;
     PyObject *sent = PyTuple_New(s->nsent);
@@ -293,7 +302,7 @@ PyObject *st_close(Core *s)
     }
     st_open_clear(s);
     PyObject *v[NV] = {NULL}, *ep = NULL, *alt = NULL, *sep = NULL, *nav = NULL, *num_sv = NULL, *x;
-    if (sent == NULL || PyDict_SetItem(s->dict, S_open, Py_None) < 0) goto done;
+    if (used == NULL || sent == NULL || PyDict_SetItem(s->dict, S_open, Py_None) < 0) goto done;
     PyObject *pos[4] = {NULL, NULL, NULL, NULL}, *names[4] = {st_s_GGA, st_s_GNS, st_s_RMC, st_s_GLL};
     for (int i = 0; i < 4; i++) /* POSITION_FROM */
         if ((pos[i] = PyDict_GetItemWithError(bt, names[i])) == NULL && PyErr_Occurred()) goto done;
@@ -320,7 +329,8 @@ PyObject *st_close(Core *s)
     PyObject *fn = st_method(s, C_SKY_EXPIRE);
     if (fn == NULL || (x = PyObject_CallOneArg(fn, x)) == NULL) goto done;
     Py_DECREF(x);
-    if (close_used(s, used, mono) < 0) goto done;
+    Py_ssize_t used_len = PySet_GET_SIZE(used);
+    if (close_used(s, used, mono) < 0 || st_keep_used(s, used, used_len, seq, nseq) < 0) goto done;
     PyObject *num_src = gga2 != NONE_MAP ? gga2 : gns2;
     if ((num_sv = st_get(num_src, S_numSV)) == NULL) goto done;
     v[0] = Py_NewRef(mono);
@@ -384,5 +394,6 @@ done:
     Py_XDECREF(bt);
     Py_XDECREF(used);
     Py_XDECREF(date);
+    for (int i = 0; i < MAX_GSA_SEQ; i++) Py_XDECREF(seq[i]);
     return ep;
 }

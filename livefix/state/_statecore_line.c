@@ -79,10 +79,9 @@ PyObject *st_attr(Core *s, PyObject *msg, int k)
 
 static int open_epoch(Core *s, PyObject *mono, PyObject *wall, int has_tod, double tod)
 {
-    PyObject *bt = PyDict_New(), *used = PySet_New(NULL);
-    if (bt == NULL || used == NULL || PyDict_SetItem(s->dict, S_open, (PyObject *)s) < 0) {
+    PyObject *bt = PyDict_New(); /* op.used is made when needed (st_join_used, st_take_used) */
+    if (bt == NULL || PyDict_SetItem(s->dict, S_open, (PyObject *)s) < 0) {
         Py_XDECREF(bt);
-        Py_XDECREF(used);
         return -1;
     }
     st_open_clear(s);
@@ -92,7 +91,6 @@ static int open_epoch(Core *s, PyObject *mono, PyObject *wall, int has_tod, doub
     s->o_has_tod = has_tod;
     s->o_tod = tod;
     s->o_by_type = bt;
-    s->o_used = used;
     s->o_date = Py_NewRef(Py_None);
     s->o_has_date_tod = 0;
     return 0;

@@ -102,13 +102,32 @@ static PyObject *frozen(PyObject *used) /* frozenset(used) */
     return PyFrozenSet_CheckExact(used) ? Py_NewRef(used) : PyFrozenSet_New(used);
 }
 
+/* 1 when used is an exact set of exact (str, int) pairs and last an exact frozenset: then
+ * `frozenset(used) == last` is `used == last` (the same look-ups by the stored hashes, and comparing
+ * such pairs runs no code), so the frozenset need not be made when they are equal */
+static int plain_pairs(PyObject *used, PyObject *last)
+{
+    if (!PySet_CheckExact(used) || !PyFrozenSet_CheckExact(last)) return 0;
+    Py_ssize_t pos = 0;
+    PyObject *k;
+    Py_hash_t h;
+    while (_PySet_NextEntry(used, &pos, &k, &h))
+        if (!PyTuple_CheckExact(k) || PyTuple_GET_SIZE(k) != 2 || !PyUnicode_CheckExact(PyTuple_GET_ITEM(k, 0))
+            || !PyLong_CheckExact(PyTuple_GET_ITEM(k, 1)))
+            return 0;
+    return 1;
+}
+
 PyObject *used_close(Tracker *s, PyObject *used, PyObject *in_view, PyObject *mono)
 {
     PyObject *out;
     if (s->nopen && place_open(s, used, in_view) < 0) return NULL;
     if (s->seen_gsa) {
-        if ((out = frozen(used)) == NULL) return NULL;
-        int same = PyObject_RichCompareBool(out, s->last, Py_EQ);
+        int same = -2;
+        if (plain_pairs(used, s->last) && (same = PyObject_RichCompareBool(used, s->last, Py_EQ)) < 0) return NULL;
+        out = same == 1 ? Py_NewRef(s->last) : frozen(used);
+        if (out == NULL) return NULL;
+        if (same == -2) same = PyObject_RichCompareBool(out, s->last, Py_EQ);
         if (same < 0) {
             Py_DECREF(out);
             return NULL;

@@ -24,7 +24,7 @@ from livefix.state.fieldvals import num as _num
 from livefix.state.gsv import make_assembler
 from livefix.state.sky import make_sky
 from livefix.state.texts import ReceiverTexts
-from livefix.state.used import make_used_tracker, solution_gsa
+from livefix.state.used import TRACKER_TYPES, make_used_tracker, solution_gsa
 
 # Sentence types whose time field is the UTC time of a position fix: only these open and close
 # epochs (NMEA 0183: GGA, RMC, GNS and GLL report a fix "as of" that time). ZDA is a clock/date
@@ -384,4 +384,5 @@ _HANDLERS = {
 }
 # what the C twin of on_sentence/_close takes from here (livefix/state/model_native.py)
 _CORE = model_native.load((MAX_SENTENCES, UNTIMED_GAP_S, _HALF_DAY, KNOT_MPS))
-_CORE_HELPERS = (solution_gsa, _quality, _datum, _tod_of, make_epoch, _dt.date, _dt.timedelta(days=1), TIMED, Decoded)
+_CORE_HELPERS = (solution_gsa, _quality, _datum, _tod_of, make_epoch, _dt.date, _dt.timedelta(days=1), TIMED, Decoded,
+                 TRACKER_TYPES)

@@ -29,7 +29,7 @@ def attach(sm: Any, core: ModuleType | None, helpers: tuple, native: bool | None
     """Rebind sm.on_sentence and sm._close to a C core over sm's attributes; False when the
     reference stays (native None: the core unless LIVEFIX_PURE is "1"; True: the core or
     RuntimeError; False: the reference). helpers: model.py's solution_gsa, _quality, _datum,
-    _tod_of, make_epoch, datetime.date, timedelta(days=1), TIMED and the Decoded type."""
+    _tod_of, make_epoch, datetime.date, timedelta(days=1), TIMED, the Decoded type and used.TRACKER_TYPES."""
     core = pick_core(core, native, "the C core livefix.state._statecore is not built (or built with other caps)")
     if core is None:
         return False

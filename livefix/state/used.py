@@ -195,6 +195,12 @@ def _built_core() -> ModuleType | None:
 _CORE = _built_core()
 
 
+# Tracker classes whose close() only adds to the set it is given (the reference and its C twin):
+# the C twin of the state model hands such a tracker the previous epoch's set again when the epoch's
+# GSA lines repeat it (livefix/state/_statecore.h, the used set's reuse).
+TRACKER_TYPES: tuple[type, ...] = (UsedTracker,) if _CORE is None else (UsedTracker, _CORE.UsedTracker)
+
+
 def make_used_tracker(native: bool | None = None) -> UsedTracker:
     """A used-set tracker: the C twin when built (same results, attributes and object identities,
     several times faster per GSA line), else UsedTracker, the reference. native None: the C twin

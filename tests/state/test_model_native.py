@@ -38,6 +38,7 @@ from livefix.state import model, model_native
 from livefix.state.clock import UtcClock
 from livefix.state.model import StateModel
 from livefix.state.sky import Sky
+from livefix.state.used import UsedTracker
 
 core = pytest.importorskip("livefix.state._statecore", reason="livefix.state._statecore is not built (no compiler?)")
 
@@ -237,3 +238,89 @@ def test_reentrant_calls_raise_and_the_model_is_collected() -> None:
     del sm
     gc.collect()
     assert ref() is None
+
+
+def _gsa(talker: str, nums: tuple[int, ...], sid: str | None = None) -> Decoded:
+    """A GSA as the decoder hands a cached line on: read-only fields (NMEA 0183 4.11 GSA field names)."""
+    f: dict[str, Any] = {"opMode": "A", "navMode": 3, **{f"svid_{i:02d}": n for i, n in enumerate(nums, 1)},
+                         "PDOP": 1.5, "HDOP": 0.9, "VDOP": 1.2}
+    if sid is not None:
+        f["systemId"] = sid
+    return Decoded(talker, "GSA", MappingProxyType(f))
+
+
+def _gsa_epochs(lines: list[list[Decoded]]) -> list[tuple]:
+    """One GGA-timed epoch per list of GSA sentences, 0.1 s apart (10 Hz), then finish."""
+    ops: list[tuple] = []
+    for i, gsas in enumerate(lines):
+        mono = 1.0 + i / 10
+        ops.append(("sentence", _fix("GGA", dt.time(1, 0, i // 10, (i % 10) * 100000), quality=1, lat=1.0, lon=2.0),
+                    mono, 1.7e9 + mono))
+        ops += [("sentence", g, mono, 1.7e9 + mono) for g in gsas]
+    return [*ops, ("finish",)]
+
+
+def _used_of(ops: list[tuple], sm: StateModel) -> list[frozenset]:
+    out: list = []
+    for op in ops:
+        out += sm.finish() if op[0] == "finish" else sm.on_sentence(*op[1:])
+    return [ep.used_prns for ep in out]
+
+
+def test_repeated_gsa_lines_reuse_the_used_set_and_give_the_reference_sets() -> None:
+    # NMEA 0183 4.11 GSA: the used set of an epoch is the union of its GSA lists (system ID 1 GPS,
+    # 2 GLONASS, 3 Galileo). The same four sentence objects every epoch, as the decoder's line cache
+    # hands them on at 10 Hz: the C core hands the tracker the previous epoch's set again.
+    gsas = [_gsa("GN", (1, 2, 17), "1"), _gsa("GN", (65, 66), "2"), _gsa("GN", (11, 12), "3")]
+    ops = _gsa_epochs([gsas] * 30)
+    t = twin()
+    for i, op in enumerate(ops):
+        assert t.call(op) is None, f"step {i}"
+    want = {("G", 1), ("G", 2), ("G", 17), ("R", 1), ("R", 2), ("E", 11), ("E", 12)}  # GLONASS 65 -> R1
+    sm = StateModel(native=True)
+    assert [set(u) for u in _used_of(ops, sm)] == [want] * 30
+    assert sm._close.__self__.used_reused >= 28  # every epoch but the first (and the one finish() closes)
+    # the GPS list alternates between two sentences: a set is reused only after the same tuples
+    a, b = _gsa("GN", (1, 2), "1"), _gsa("GN", (3, 4), "1")
+    ops = _gsa_epochs([[a if i % 4 < 2 else b, gsas[2]] for i in range(24)])
+    sm = StateModel(native=True)
+    got = [set(u) for u in _used_of(ops, sm)]
+    assert got == [{("E", 11), ("E", 12), *((("G", 1), ("G", 2)) if i % 4 < 2 else (("G", 3), ("G", 4)))}
+                   for i in range(24)]
+    assert sm._close.__self__.used_reused == 12  # the second epoch of each pair
+
+
+def test_a_set_the_tracker_added_to_is_never_reused() -> None:
+    # A GN list without system ID is placed at close (livefix.state.used), into the set the model
+    # handed over. Here the Galileo list (talker GA) repeats while the GN list changes: the set of
+    # the epoch before held that epoch's GN numbers too, so it must not serve again.
+    ga = _gsa("GA", (11, 12))
+    lists = [[ga, _gsa("GN", (1, 2) if i % 2 == 0 else (3, 4))] for i in range(20)]
+    ops = _gsa_epochs(lists)
+    t = twin()
+    for i, op in enumerate(ops):
+        assert t.call(op) is None, f"step {i}"
+    sm = StateModel(native=True)
+    got = _used_of(ops, sm)
+    for i, u in enumerate(got):  # the GN numbers read as GPS (nothing in view to say otherwise)
+        assert set(u) == {("E", 11), ("E", 12), *((("G", 1), ("G", 2)) if i % 2 == 0 else (("G", 3), ("G", 4)))}
+    assert sm._close.__self__.used_reused == 0
+
+
+def test_the_set_is_not_reused_for_an_unknown_tracker_or_one_that_keeps_it() -> None:
+    gsas = [_gsa("GN", (1, 2, 17), "1"), _gsa("GN", (11, 12), "3")]
+    ops = _gsa_epochs([gsas] * 12)
+    want = _used_of(ops, StateModel(native=False))
+
+    class Mine(UsedTracker):  # a subclass may do anything with the set: never handed one twice
+        pass
+
+    sm = StateModel(native=True)
+    sm._gsa = Mine()
+    assert _used_of(ops, sm) == want and sm._close.__self__.used_reused == 0
+    sm, kept = StateModel(native=True), []
+    tracker = UsedTracker()  # the reference class, but this one keeps every set it is given
+    tracker.close = lambda used, in_view, mono: (kept.append(used), UsedTracker.close(tracker, used, in_view, mono))[1]
+    sm._gsa = tracker
+    assert _used_of(ops, sm) == want and sm._close.__self__.used_reused == 0
+    assert len({id(u) for u in kept}) == len(kept) == 12  # a new set each epoch, as the reference makes
