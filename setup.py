@@ -80,7 +80,7 @@ C_CORES = {
     # the state model's epoch assembly (livefix/state/model.py keeps the reference; model_native.py wires this in)
     "livefix.state._statecore": (
         ["livefix/state/_statecore.c", "livefix/state/_statecore_line.c", "livefix/state/_statecore_add.c",
-         "livefix/state/_statecore_close.c"],
+         "livefix/state/_statecore_close.c", "livefix/state/_statecore_used.c"],
         ["livefix/state/_statecore.h", "livefix/_corekit.h"],
     ),
     # DopStats' closed-form DOP solve and used-satellite pass (analysis/dopsolve.py and dop.py keep the references)

@@ -137,6 +137,10 @@ static int core_traverse(Core *s, visitproc visit, void *arg)
         Py_VISIT(s->gsa_prev[i]);
     }
     Py_VISIT(s->prev_used);
+    for (int i = 0; i < GSA_PICKS; i++) {
+        Py_VISIT(s->picks[i].had);
+        Py_VISIT(s->picks[i].f);
+    }
     return 0;
 }
 
@@ -144,6 +148,7 @@ static int core_clear(Core *s)
 {
     st_open_clear(s);
     st_used_forget(s);
+    st_picks_clear(s);
     s->mw_stamp = 0;
     s->unknown_at = 0;
     for (int i = 0; i < 4; i++) s->cstamp[i] = 0;
@@ -227,9 +232,16 @@ static PyObject *get_used_reused(Core *s, void *closure)
     return PyLong_FromUnsignedLongLong(s->used_reused);
 }
 
+static PyObject *get_picks_hit(Core *s, void *closure)
+{
+    (void)closure;
+    return PyLong_FromUnsignedLongLong(s->picks_hit);
+}
+
 static PyGetSetDef core_getset[] = {
     {"open", (getter)get_open, NULL, "an epoch is being assembled", NULL},
     {"used_reused", (getter)get_used_reused, NULL, "epochs handed the previous epoch's used set (tests)", NULL},
+    {"picks_hit", (getter)get_picks_hit, NULL, "solution_gsa answers given by the identity of the pair (tests)", NULL},
     {NULL, NULL, NULL, NULL, NULL}};
 
 PyDoc_STRVAR(core_doc,

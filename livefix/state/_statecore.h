@@ -1,10 +1,11 @@
 /* livefix.state._statecore: the declarations its source files share (private to the module).
  *
  * The module is built from _statecore.c (the EpochCore type and the module), _statecore_line.c
- * (on_sentence's prelude: dispatch and the open epoch's bookkeeping), _statecore_add.c (the per-type handlers of
- * livefix/state/model.py and a C twin of used.solution_gsa) and _statecore_close.c (_close:
- * one Epoch from the open epoch). Everything shared between them has the st_ prefix (or is a type
- * or a static inline helper) and hidden visibility, so the extension exports nothing but its init.
+ * (on_sentence's prelude: dispatch and the open epoch's bookkeeping), _statecore_add.c (the
+ * per-type handlers of livefix/state/model.py and a C twin of used.solution_gsa),
+ * _statecore_close.c (_close: one Epoch from the open epoch) and _statecore_used.c (the open
+ * epoch's used set). Everything shared between them has the st_ prefix (or is a type or a static
+ * inline helper) and hidden visibility, so the extension exports nothing but its init.
  */
 #ifndef LIVEFIX_STATECORE_H
 #define LIVEFIX_STATECORE_H
@@ -26,6 +27,7 @@
 #define KNOT_MPS (1852.0 / 3600.0) /* livefix.state.model.KNOT_MPS, the same division */
 #define ST_KINDS 16          /* msg ids whose dispatch is remembered (a receiver sends a handful) */
 #define MAX_GSA_SEQ 16       /* GSA lines of an epoch remembered for the used set's reuse (one per system) */
+#define GSA_PICKS 8          /* solution_gsa answers remembered (three or so pairs an epoch) */
 
 /* A timed sentence's key (talker + msg id): the two strings when both are exact str (the
  * concatenation is then never made), else the concatenation itself in `key`. */
@@ -70,6 +72,13 @@ typedef struct {
     PyObject *prev_used;   /* the last epoch's set (owned) or NULL */
     Py_ssize_t prev_used_len;
     unsigned long long used_reused; /* epochs given the previous set (tests) */
+    /* solution_gsa(had, f) answered by the identity of the pair: kept only when both are sealed
+     * read-only mappings (a mappingproxy whose dict nothing else holds, as the decoder hands a
+     * cached line on: their values can never change) and the values the answer read are plain,
+     * so asking again would give the same one of the two. The pair is held (ids stay unique). */
+    struct { PyObject *had, *f; int pick_f; } picks[GSA_PICKS];
+    int picks_next;
+    unsigned long long picks_hit; /* answers given from here (tests) */
     Key *keys;
     Py_ssize_t nkeys, keys_cap;
     PyObject *sent[MAX_SENTENCES];
@@ -126,7 +135,7 @@ ST_HIDDEN int st_on_gst(Core *s, PyObject *msg);
 ST_HIDDEN int st_on_gsa(Core *s, PyObject *msg);
 ST_HIDDEN int st_on_gsv(Core *s, PyObject *msg, PyObject *mono, PyObject *wall);
 
-/* _statecore_add.c: op.used.update(placed), made or deferred; 0 or -1 with an error set */
+/* _statecore_used.c: op.used.update(placed), made or deferred; 0 or -1 with an error set */
 ST_HIDDEN int st_join_used(Core *s, PyObject *placed);
 /* op.used for _close, a new reference: the set made, the previous epoch's set when it may serve, or one
  * made now from the remembered tuples; NULL with an error set */
@@ -139,5 +148,6 @@ ST_HIDDEN int st_close_init(void);
 ST_HIDDEN PyObject *st_close(Core *s);
 ST_HIDDEN void st_open_clear(Core *s);
 ST_HIDDEN void st_used_forget(Core *s); /* no previous set to reuse */
+ST_HIDDEN void st_picks_clear(Core *s); /* _statecore_add.c: forget solution_gsa's answers */
 
 #endif

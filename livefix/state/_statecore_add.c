@@ -153,122 +153,87 @@ static int same_field(PyObject *f, PyObject *had, PyObject *name)
     return r;
 }
 
+/* m is a mappingproxy over d and nothing but it holds d: what it maps can never change */
+static int sealed(PyObject *m, PyObject *d)
+{
+    return Py_IS_TYPE(m, &PyDictProxy_Type) && d != NULL && Py_REFCNT(d) == 1;
+}
+
+/* None or a value of an exact builtin type: comparing or testing it runs no code */
+static int plain(PyObject *v)
+{
+    return v == Py_None || PyFloat_CheckExact(v) || PyLong_CheckExact(v) || PyUnicode_CheckExact(v) || PyBool_Check(v);
+}
+
+void st_picks_clear(Core *s)
+{
+    for (int i = 0; i < GSA_PICKS; i++) {
+        Py_CLEAR(s->picks[i].had);
+        Py_CLEAR(s->picks[i].f);
+    }
+}
+
+/* remember solution_gsa(had, f) -> had (pick_f 0) or f (1) when it may be (see Core.picks) */
+static int remember_pick(Core *s, PyObject *had, PyObject *f, int pick_f, int branch)
+{
+    if (!sealed(had, kit_plain_dict(had)) || !sealed(f, kit_plain_dict(f))) return 0;
+    if (branch == 3) { /* the answer compared HDOP and VDOP too */
+        PyObject *names[2] = {S_HDOP, S_VDOP}, *ms[2] = {had, f};
+        for (int i = 0; i < 2; i++)
+            for (int j = 0; j < 2; j++) {
+                PyObject *v = st_get(ms[j], names[i]);
+                if (v == NULL) return -1;
+                int ok = plain(v);
+                Py_DECREF(v);
+                if (!ok) return 0;
+            }
+    }
+    int k = s->picks_next;
+    s->picks_next = (k + 1) % GSA_PICKS;
+    Py_XSETREF(s->picks[k].had, Py_NewRef(had));
+    Py_XSETREF(s->picks[k].f, Py_NewRef(f));
+    s->picks[k].pick_f = pick_f;
+    return 0;
+}
+
 /* used.solution_gsa(had, f): the cheap decisions here; other mappings and the rare copy with the
  * DOPs dropped are the reference's own. A new reference. */
 static PyObject *solution_gsa(Core *s, PyObject *had, PyObject *f)
 {
     if (had == Py_None) return Py_NewRef(f);
+    for (int i = 0; i < GSA_PICKS; i++)
+        if (s->picks[i].had == had && s->picks[i].f == f) {
+            s->picks_hit++;
+            return Py_NewRef(s->picks[i].pick_f ? f : had);
+        }
     if (kit_plain_dict(had) == NULL || kit_plain_dict(f) == NULL) goto python;
     PyObject *hp = st_get(had, S_PDOP), *fp = hp == NULL ? NULL : st_get(f, S_PDOP);
     PyObject *per = fp == NULL ? NULL : st_get(had, S_PER), *pick = NULL;
-    int r = per == NULL ? -1 : PyObject_IsTrue(per);
+    int r = per == NULL ? -1 : PyObject_IsTrue(per), branch = 0;
     if (r != 0 || !PyFloat_CheckExact(fp)) {
         pick = r < 0 ? NULL : had;
+        branch = 1;
     } else if (!PyFloat_CheckExact(hp)) {
         pick = f;
+        branch = 2;
     } else if (PyFloat_AS_DOUBLE(fp) == PyFloat_AS_DOUBLE(hp)) {
         r = same_field(f, had, S_HDOP);
         if (r > 0) r = same_field(f, had, S_VDOP);
         if (r > 0) pick = had;
+        branch = 3;
     }
+    int plain_per = per != NULL && plain(per);
     Py_XDECREF(hp);
     Py_XDECREF(fp);
     Py_XDECREF(per);
     if (r < 0) return NULL;
-    if (pick != NULL) return Py_NewRef(pick);
+    if (pick != NULL) {
+        if (plain_per && remember_pick(s, had, f, pick == f, branch) < 0) return NULL;
+        return Py_NewRef(pick);
+    }
 python:;
     PyObject *args[2] = {had, f};
     return PyObject_Vectorcall(s->call[C_SOLUTION_GSA], args, 2, NULL);
-}
-
-/* set.update(placed) */
-static int update(PyObject *set, PyObject *placed)
-{
-    if (PyTuple_CheckExact(placed)) {
-        for (Py_ssize_t i = 0; i < PyTuple_GET_SIZE(placed); i++)
-            if (PySet_Add(set, PyTuple_GET_ITEM(placed, i)) < 0) return -1;
-        return 0;
-    }
-    PyObject *it = PyObject_GetIter(placed), *x;
-    if (it == NULL) return -1;
-    while ((x = PyIter_Next(it)) != NULL) {
-        int r = PySet_Add(set, x);
-        Py_DECREF(x);
-        if (r < 0) break;
-    }
-    Py_DECREF(it);
-    return PyErr_Occurred() ? -1 : 0;
-}
-
-/* op.used made from the n tuples remembered so far, in their order */
-static int make_used(Core *s, int n)
-{
-    if ((s->o_used = PySet_New(NULL)) == NULL) return -1;
-    for (int i = 0; i < n; i++)
-        if (update(s->o_used, s->gsa_seq[i]) < 0) return -1;
-    return 0;
-}
-
-int st_join_used(Core *s, PyObject *placed)
-{
-    int n = s->gsa_n;
-    if (n < MAX_GSA_SEQ) s->gsa_seq[n] = Py_NewRef(placed);
-    s->gsa_n = n + 1;
-    if (s->o_used == NULL) {
-        if (s->prev_used != NULL && n < MAX_GSA_SEQ && n < s->gsa_prev_n && s->gsa_prev[n] == placed
-            && PyTuple_CheckExact(placed))
-            return 0; /* the previous epoch's tuple at this place: joined when the set is needed */
-        if (make_used(s, n < MAX_GSA_SEQ ? n : MAX_GSA_SEQ) < 0) return -1;
-    }
-    return update(s->o_used, placed);
-}
-
-PyObject *st_take_used(Core *s)
-{
-    PyObject *u = s->o_used;
-    if (u != NULL) {
-        s->o_used = NULL;
-        return u;
-    }
-    u = s->prev_used;
-    if (u != NULL && s->gsa_n == s->gsa_prev_n && Py_REFCNT(u) == 1 && PySet_GET_SIZE(u) == s->prev_used_len) {
-        s->prev_used = NULL; /* every tuple was the previous epoch's: its set, unchanged */
-        s->used_reused++;
-        return u;
-    }
-    if (make_used(s, s->gsa_n < MAX_GSA_SEQ ? s->gsa_n : MAX_GSA_SEQ) < 0) {
-        Py_CLEAR(s->o_used);
-        return NULL;
-    }
-    u = s->o_used;
-    s->o_used = NULL;
-    return u;
-}
-
-void st_used_forget(Core *s)
-{
-    Py_CLEAR(s->prev_used);
-    for (int i = 0; i < MAX_GSA_SEQ; i++) Py_CLEAR(s->gsa_prev[i]);
-    s->gsa_prev_n = -1;
-}
-
-int st_keep_used(Core *s, PyObject *used, Py_ssize_t len, PyObject **seq, int n)
-{
-    st_used_forget(s);
-    PyObject *tracker = st_collab(s, C_GSA), *kinds = s->call[C_TRACKERS];
-    if (tracker == NULL) return -1;
-    int trusted = 0;
-    for (Py_ssize_t i = 0; i < PyTuple_GET_SIZE(kinds); i++)
-        trusted |= (PyObject *)Py_TYPE(tracker) == PyTuple_GET_ITEM(kinds, i);
-    if (!trusted || n > MAX_GSA_SEQ || !PySet_CheckExact(used) || PySet_GET_SIZE(used) != len) return 0;
-    s->prev_used = Py_NewRef(used);
-    s->prev_used_len = len;
-    for (int i = 0; i < n; i++) {
-        s->gsa_prev[i] = seq[i];
-        seq[i] = NULL;
-    }
-    s->gsa_prev_n = n;
-    return 0;
 }
 
 /* _on_gsa: the solution's GSA fields, and the list's placed pairs join the epoch's used set */

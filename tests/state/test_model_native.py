@@ -261,10 +261,14 @@ def _gsa_epochs(lines: list[list[Decoded]]) -> list[tuple]:
 
 
 def _used_of(ops: list[tuple], sm: StateModel) -> list[frozenset]:
+    return [ep.used_prns for ep in _eps(ops, sm)]
+
+
+def _eps(ops: list[tuple], sm: StateModel) -> list:
     out: list = []
     for op in ops:
         out += sm.finish() if op[0] == "finish" else sm.on_sentence(*op[1:])
-    return [ep.used_prns for ep in out]
+    return out
 
 
 def test_repeated_gsa_lines_reuse_the_used_set_and_give_the_reference_sets() -> None:
@@ -324,3 +328,52 @@ def test_the_set_is_not_reused_for_an_unknown_tracker_or_one_that_keeps_it() -> 
     sm._gsa = tracker
     assert _used_of(ops, sm) == want and sm._close.__self__.used_reused == 0
     assert len({id(u) for u in kept}) == len(kept) == 12  # a new set each epoch, as the reference makes
+
+
+def test_solution_gsa_answers_sealed_pairs_by_identity_and_reads_others_again() -> None:
+    # used.solution_gsa: equal DOPs in every GSA describe the solution (the first one's stand).
+    # Sealed read-only mappings (the decoder's cached lines) are answered by identity from the
+    # second epoch on; a mapping whose dict someone still holds, or a value of another type, is
+    # read again each time, as the reference does.
+    gsas = [_gsa("GN", (1, 2), "1"), _gsa("GN", (11, 12), "3")]
+    ops = _gsa_epochs([gsas] * 10)
+    t = twin()
+    for i, op in enumerate(ops):
+        assert t.call(op) is None, f"step {i}"
+    sm = StateModel(native=True)
+    assert [ep.pdop for ep in _eps(ops, sm)] == [1.5] * 10
+    assert sm._close.__self__.picks_hit >= 8
+    # an empty GSA first (no DOPs, as some receivers send for a constellation not used): the next one's stand
+    empty = Decoded("GN", "GSA", MappingProxyType({"opMode": "A", "navMode": 1, "PDOP": "", "HDOP": "", "VDOP": ""}))
+    ops = _gsa_epochs([[empty, gsas[0]]] * 6)
+    sm = StateModel(native=True)
+    assert [ep.pdop for ep in _eps(ops, sm)] == [1.5] * 6 and sm._close.__self__.picks_hit >= 4
+
+    d = {"navMode": 3, "svid_01": 11, "PDOP": 1.5, "HDOP": 0.9, "VDOP": 1.2, "systemId": "3"}
+    open_gsa = Decoded("GN", "GSA", MappingProxyType(d))  # d stays writable from here
+    ops = _gsa_epochs([[gsas[0], open_gsa]] * 6)
+    sm, ref, got, want = StateModel(native=True), StateModel(native=False), [], []
+    for op in ops:
+        if op[0] == "sentence" and op[1].msg_id == "GGA" and op[2] >= 1.3:
+            d["PDOP"] = 2.5  # from the fourth epoch on the GSA lines disagree: per-system DOPs
+        got += sm.finish() if op[0] == "finish" else sm.on_sentence(*op[1:])
+        want += ref.finish() if op[0] == "finish" else ref.on_sentence(*op[1:])
+    assert [e.pdop for e in got] == [e.pdop for e in want] == [1.5, 1.5, 1.5, None, None, None]
+    assert sm._close.__self__.picks_hit == 0
+
+    calls, now = [0, 0], [0]  # comparisons counted per model; now[0]: the model being run
+
+    class Loud(float):  # a value whose comparison is observable
+        def __eq__(self, other: object) -> bool:
+            calls[now[0]] += 1
+            return float(self) == other
+
+        __hash__ = float.__hash__
+
+    def loud(nums: tuple[int, ...], sid: str) -> Decoded:  # sealed, but with a Loud HDOP
+        return Decoded("GN", "GSA", MappingProxyType({**_gsa("GN", nums, sid).fields, "HDOP": Loud(0.9)}))
+
+    ops = _gsa_epochs([[loud((1, 2), "1"), loud((11, 12), "3")]] * 5)
+    for now[0], sm in enumerate((StateModel(native=True), StateModel(native=False))):
+        assert [e.pdop for e in _eps(ops, sm)] == [1.5] * 5
+    assert calls[0] == calls[1] > 0
