@@ -65,13 +65,14 @@ int sky_sig_same(PyObject *a, PyObject *b)
 static int sky_replace_body(Sky *s, PyObject *group, PyObject *sats, PyObject *mono, PyObject **popped)
 {
     PyObject *g = s->groups, *m = s->monos;
+    Py_hash_t h = sky_plain_hash(group);
     /* groups.pop(group, None): of no groups, None without hashing the key (as dict.pop) */
-    PyObject *old = PyDict_GET_SIZE(g) == 0 ? NULL : PyDict_GetItemWithError(g, group);
+    PyObject *old = PyDict_GET_SIZE(g) == 0 ? NULL : SKY_GET(g, group, h);
     if (old == NULL && PyErr_Occurred()) return -1;
     if (old != NULL) {
         *popped = Py_NewRef(old);
         Py_CLEAR(s->sig);
-        if (PyDict_DelItem(g, group) < 0) return -1;
+        if (SKY_DEL(g, group, h) < 0) return -1;
     }
     if ((old == NULL || old == Py_None) && PyDict_GET_SIZE(g) >= s->max_groups) {
         Py_ssize_t pos = 0;
@@ -86,11 +87,11 @@ static int sky_replace_body(Sky *s, PyObject *group, PyObject *sats, PyObject *m
         Py_DECREF(k);
         if (bad) return -1;
     }
-    old = PyDict_GET_SIZE(m) == 0 ? NULL : PyDict_GetItemWithError(m, group);  /* monos.pop(group, None) */
+    old = PyDict_GET_SIZE(m) == 0 ? NULL : SKY_GET(m, group, h);  /* monos.pop(group, None) */
     if (old == NULL && PyErr_Occurred()) return -1;
-    if (old != NULL && PyDict_DelItem(m, group) < 0) return -1;
+    if (old != NULL && SKY_DEL(m, group, h) < 0) return -1;
     Py_CLEAR(s->sig);
-    if (PyDict_SetItem(g, group, sats) < 0 || PyDict_SetItem(m, group, mono) < 0) return -1;
+    if (SKY_SET(g, group, sats, h) < 0 || SKY_SET(m, group, mono, h) < 0) return -1;
     int lt = order(mono, s->oldest, Py_LT);
     if (lt > 0) Py_SETREF(s->oldest, Py_NewRef(mono));
     return lt < 0 ? -1 : 0;

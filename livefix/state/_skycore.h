@@ -67,4 +67,26 @@ static inline int sky_cmp(PyObject *a, PyObject *b, int op)
     return t;
 }
 
+/* A group key of exact strs (the GSV assembler's (talker, signal)) is hashed once per replace():
+ * hashing it runs no code, so the five look-ups after the first reuse that hash. Any other key is
+ * hashed by each dict operation, as Python does. (The known-hash calls are CPython's own, exported
+ * up to 3.12; later versions hash each time.) */
+#if PY_VERSION_HEX < 0x030D0000
+#define SKY_GET(d, k, h) ((h) != -1 ? _PyDict_GetItem_KnownHash(d, k, h) : PyDict_GetItemWithError(d, k))
+#define SKY_DEL(d, k, h) ((h) != -1 ? _PyDict_DelItem_KnownHash(d, k, h) : PyDict_DelItem(d, k))
+#define SKY_SET(d, k, v, h) ((h) != -1 ? _PyDict_SetItem_KnownHash(d, k, v, h) : PyDict_SetItem(d, k, v))
+#else
+#define SKY_GET(d, k, h) PyDict_GetItemWithError(d, k)
+#define SKY_DEL(d, k, h) PyDict_DelItem(d, k)
+#define SKY_SET(d, k, v, h) PyDict_SetItem(d, k, v)
+#endif
+
+static inline Py_hash_t sky_plain_hash(PyObject *group)
+{
+    if (!PyTuple_CheckExact(group)) return -1;
+    for (Py_ssize_t i = 0; i < PyTuple_GET_SIZE(group); i++)
+        if (!PyUnicode_CheckExact(PyTuple_GET_ITEM(group, i))) return -1;
+    return PyObject_Hash(group); /* str tuples: never -1 (CPython maps a hash of -1 to -2) */
+}
+
 #endif
