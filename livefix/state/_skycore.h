@@ -76,9 +76,9 @@ static inline int sky_cmp(PyObject *a, PyObject *b, int op)
 #define SKY_DEL(d, k, h) ((h) != -1 ? _PyDict_DelItem_KnownHash(d, k, h) : PyDict_DelItem(d, k))
 #define SKY_SET(d, k, v, h) ((h) != -1 ? _PyDict_SetItem_KnownHash(d, k, v, h) : PyDict_SetItem(d, k, v))
 #else
-#define SKY_GET(d, k, h) PyDict_GetItemWithError(d, k)
-#define SKY_DEL(d, k, h) PyDict_DelItem(d, k)
-#define SKY_SET(d, k, v, h) PyDict_SetItem(d, k, v)
+#define SKY_GET(d, k, h) ((void)(h), PyDict_GetItemWithError(d, k))
+#define SKY_DEL(d, k, h) ((void)(h), PyDict_DelItem(d, k))
+#define SKY_SET(d, k, v, h) ((void)(h), PyDict_SetItem(d, k, v))
 #endif
 
 static inline Py_hash_t sky_plain_hash(PyObject *group)
