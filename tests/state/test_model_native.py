@@ -280,7 +280,7 @@ def test_repeated_gsa_lines_reuse_the_used_set_and_give_the_reference_sets() -> 
     t = twin()
     for i, op in enumerate(ops):
         assert t.call(op) is None, f"step {i}"
-    want = {("G", 1), ("G", 2), ("G", 17), ("R", 1), ("R", 2), ("E", 11), ("E", 12)}  # GLONASS 65 -> R1
+    want = {("G", 1), ("G", 2), ("G", 17), ("R", 1), ("R", 2), ("E", 11), ("E", 12)}  # NMEA 0183 number blocks: 65-96 are GLONASS slots 1-32
     sm = StateModel(native=True)
     assert [set(u) for u in _used_of(ops, sm)] == [want] * 30
     assert sm._close.__self__.used_reused >= 28  # every epoch but the first (and the one finish() closes)
@@ -306,7 +306,7 @@ def test_a_set_the_tracker_added_to_is_never_reused() -> None:
         assert t.call(op) is None, f"step {i}"
     sm = StateModel(native=True)
     got = _used_of(ops, sm)
-    for i, u in enumerate(got):  # the GN numbers read as GPS (nothing in view to say otherwise)
+    for i, u in enumerate(got):  # NMEA 0183 number blocks: 1-32 are GPS (nothing in view says otherwise)
         assert set(u) == {("E", 11), ("E", 12), *((("G", 1), ("G", 2)) if i % 2 == 0 else (("G", 3), ("G", 4)))}
     assert sm._close.__self__.used_reused == 0
 
@@ -331,7 +331,9 @@ def test_the_set_is_not_reused_for_an_unknown_tracker_or_one_that_keeps_it() -> 
 
 
 def test_solution_gsa_answers_sealed_pairs_by_identity_and_reads_others_again() -> None:
-    # used.solution_gsa: equal DOPs in every GSA describe the solution (the first one's stand).
+    # used.solution_gsa: equal DOPs in every GSA describe the solution (the first one's stand);
+    # different DOPs per GSA are per-system ones and are dropped (common practice, docs/sources.md
+    # #gsa-per-constellation).
     # Sealed read-only mappings (the decoder's cached lines) are answered by identity from the
     # second epoch on; a mapping whose dict someone still holds, or a value of another type, is
     # read again each time, as the reference does.
@@ -343,7 +345,8 @@ def test_solution_gsa_answers_sealed_pairs_by_identity_and_reads_others_again() 
     sm = StateModel(native=True)
     assert [ep.pdop for ep in _eps(ops, sm)] == [1.5] * 10
     assert sm._close.__self__.picks_hit >= 8
-    # an empty GSA first (no DOPs, as some receivers send for a constellation not used): the next one's stand
+    # an empty GSA first (no DOPs, as some receivers send for a constellation not used; common
+    # practice): the next one's stand
     empty = Decoded("GN", "GSA", MappingProxyType({"opMode": "A", "navMode": 1, "PDOP": "", "HDOP": "", "VDOP": ""}))
     ops = _gsa_epochs([[empty, gsas[0]]] * 6)
     sm = StateModel(native=True)
