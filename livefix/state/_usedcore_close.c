@@ -107,7 +107,8 @@ static PyObject *frozen(PyObject *used) /* frozenset(used) */
  * such pairs runs no code), so the frozenset need not be made when they are equal */
 static int plain_pairs(PyObject *used, PyObject *last)
 {
-    if (!PySet_CheckExact(used) || !PyFrozenSet_CheckExact(last)) return 0;
+    if (!PySet_CheckExact(used) || !PyFrozenSet_CheckExact(last) || PySet_GET_SIZE(used) != PySet_GET_SIZE(last))
+        return 0; /* (of another size they differ: no walk over the elements) */
     Py_ssize_t pos = 0;
     PyObject *k;
     Py_hash_t h;
